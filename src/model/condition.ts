@@ -1,0 +1,74 @@
+/**
+ * Conditions an alarm can be raised for, and the priority class each belongs to.
+ * The three priorities are the trade's distinction (alarm / trouble / system) and are kept apart everywhere.
+ */
+export const PRIORITIES = ['alarm', 'trouble', 'system'] as const;
+export type Priority = (typeof PRIORITIES)[number];
+
+export const CONDITIONS = [
+  'tripped',
+  'open',
+  'shorted',
+  'offline',
+  'intermittent',
+  'link-noisy',
+  'decoder-fault',
+  'mail-failing',
+  'storage-failing',
+] as const;
+export type Condition = (typeof CONDITIONS)[number];
+
+export const CONDITION_PRIORITY = {
+  tripped: 'alarm',
+  open: 'trouble',
+  shorted: 'trouble',
+  offline: 'trouble',
+  intermittent: 'trouble',
+  'link-noisy': 'trouble',
+  'decoder-fault': 'trouble',
+  'mail-failing': 'system',
+  'storage-failing': 'system',
+} as const satisfies Record<Condition, Priority>;
+
+/** Sort key: alarms first, then trouble, then system. */
+export const PRIORITY_RANK = { alarm: 0, trouble: 1, system: 2 } as const satisfies Record<Priority, number>;
+
+/** Plain words for each condition, and what to check on site. Used by mail, pages and the daily report. */
+export const CONDITION_TEXT = {
+  tripped: {
+    words: 'tripped: the remote node stopped its heartbeat (its reading crossed the threshold, or the node has no power)',
+    check: 'Visit the building: check the temperature (or whatever the node watches), then the node itself.',
+  },
+  open: {
+    words: 'open circuit: no standby current on the loop',
+    check: 'Look for a cut or unplugged cable, a blown fuse at the decoder, or a node that has been removed.',
+  },
+  shorted: {
+    words: 'short circuit: the loop draws high current continuously',
+    check: 'Look for crushed or wet cable, a water-logged junction box, or a failed node.',
+  },
+  offline: {
+    words: 'decoder offline: the line decoder has stopped talking to the monitor',
+    check: 'Check the decoder USB cable and power at the main building; every loop on it is blind meanwhile.',
+  },
+  intermittent: {
+    words: 'intermittent: the loop keeps dropping into fault and recovering',
+    check: 'Suspect a loose terminal, corroded joint or a cable that moves in the wind; check joints and glands.',
+  },
+  'link-noisy': {
+    words: 'noisy decoder link: many garbled or lost frames between decoder and monitor',
+    check: 'Check the USB cable and its routing away from mains and motor cables; try another port.',
+  },
+  'decoder-fault': {
+    words: 'decoder fault: the decoder reported a problem of its own (supply, overrun or watchdog restart)',
+    check: 'Check the decoder power supply and the loop supply voltage.',
+  },
+  'mail-failing': {
+    words: 'mail failing: the monitor cannot hand mail to the mail server',
+    check: 'Check the internet connection and the SMTP settings (run `pairwatch mail-test`).',
+  },
+  'storage-failing': {
+    words: 'storage failing: the monitor cannot write its database',
+    check: 'Check free disk space and the data folder permissions; run `pairwatch doctor`.',
+  },
+} as const satisfies Record<Condition, { words: string; check: string }>;

@@ -1,0 +1,4 @@
+export * from './alarmState.js';
+export * from './band.js';
+export * from './condition.js';
+export * from './loopState.js';
