@@ -5,7 +5,10 @@ import type { Condition, Priority } from '../model/condition.js';
 export interface EscalationProgress {
   /** How many of the policy's steps have fired. */
   stepsDone: number;
-  /** How many repeats have been sent after the steps. */
+  /**
+   * How many repeat slots (raisedAt + k·repeat_every) have been used up. After a catch-up one repeat
+   * notice stands for every slot missed, so this may run ahead of the number of repeat mails sent.
+   */
   repeatsDone: number;
   /** When the planner next has something to do (next step or repeat); null when finished or stopped. */
   nextAt: number | null;

@@ -14,8 +14,14 @@ export type LoopInput =
   /** The decoder went silent or its port vanished (decided by the shell on host time). */
   | { kind: 'offline' };
 
-/** Line-quality counters since the last time the shell took them (per-minute rows). */
+/**
+ * Line-quality counters since the last time the shell took them (per-minute rows).
+ * Intervals are measured pulse start to pulse start between valid pulses; an interval across lost
+ * frames, a decoder restart or a fault state is not measured at all. Every measured interval feeds
+ * the sums (mean and jitter, see intervalFigures); `outOfTolerance` counts those outside the ratios.
+ */
 export interface LineQuality {
+  /** Valid heartbeat pulses. */
   pulses: number;
   intervalCount: number;
   intervalSumMs: number;
@@ -28,5 +34,6 @@ export interface LineQuality {
 
 export type LoopEffect =
   | { kind: 'state'; from: LoopState; to: LoopState; atUs: number; reason: string }
+  /** A valid heartbeat pulse; `atUs` is its start, `intervalUs` null when not measured (see LineQuality). */
   | { kind: 'pulse'; atUs: number; widthUs: number; intervalUs: number | null }
   | { kind: 'intermittent'; on: boolean; atUs: number; faultsInWindow: number };

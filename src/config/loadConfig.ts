@@ -25,13 +25,13 @@ export function describeIssues(issues: readonly z.core.$ZodIssue[]): ConfigProbl
 
 /** Parses YAML text into a validated config; throws ConfigError listing every problem. */
 export function parseConfig(text: string, file = '<config>'): SiteConfig {
-  const doc = parseDocument(text, { prettyErrors: false, uniqueKeys: true });
+  const doc = parseDocument(text, { prettyErrors: true, uniqueKeys: true });
   if (doc.errors.length > 0) {
     throw new ConfigError(
       file,
       doc.errors.map((e) => ({
         path: e.linePos?.[0] ? `line ${e.linePos[0].line}, column ${e.linePos[0].col}` : '',
-        message: `YAML: ${e.message.split('\n')[0]}`,
+        message: `YAML: ${e.message.split('\n')[0]!.replace(/ at line \d+, column \d+:?$/, '')}`,
       })),
     );
   }

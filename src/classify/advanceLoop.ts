@@ -1,0 +1,44 @@
+import { clearIntermittentBy, enterState, intermittentClearsAtUs } from './loopRun.js';
+import type { LoopRun } from './loopRun.js';
+import { stateReason } from './stateReason.js';
+
+/**
+ * Fires every window that expires by `toUs` while the band stays as it is, each at its exact expiry
+ * time, so a state is dated when its window ran out rather than when a later frame revealed it.
+ *
+ * While the band is H only the short window runs: whether the span is a heartbeat (which would cancel
+ * a trip) is known only when it ends, so a trip or an intermittent clear falling inside it waits for
+ * endBand, which dates it exactly all the same.
+ */
+export function advanceLoop(run: LoopRun, toUs: number): void {
+  const { s, w } = run;
+  // Each pass changes the state or the flag, so a few passes always settle; the bound guards odd settings.
+  for (let pass = 0; pass < 6; pass++) {
+    if (s.band === null || s.bandSinceUs === null) return;
+
+    if (s.band === 'H') {
+      if (s.state === 'shorted') return;
+      const shortAtUs = s.bandSinceUs + w.shortUs;
+      if (shortAtUs > toUs) return;
+      clearIntermittentBy(run, shortAtUs);
+      enterState(run, 'shorted', shortAtUs, stateReason.shorted(w.shortUs));
+      continue;
+    }
+
+    let faultAtUs: number | null = null;
+    if (s.band === 'O' && s.state !== 'open') faultAtUs = s.bandSinceUs + w.openUs;
+    if (s.band === 'N' && s.state !== 'tripped' && s.tripFromUs !== null) {
+      // A window that ran out while the band was O only trips once the band is N again.
+      faultAtUs = Math.max(s.tripFromUs + w.tripUs, s.bandSinceUs);
+    }
+    const clearsAtUs = intermittentClearsAtUs(run);
+
+    if (clearsAtUs !== null && clearsAtUs <= toUs && (faultAtUs === null || clearsAtUs <= faultAtUs)) {
+      clearIntermittentBy(run, clearsAtUs);
+      continue;
+    }
+    if (faultAtUs === null || faultAtUs > toUs) return;
+    if (s.band === 'O') enterState(run, 'open', faultAtUs, stateReason.open(w.openUs));
+    else enterState(run, 'tripped', faultAtUs, stateReason.tripped(w.tripUs));
+  }
+}

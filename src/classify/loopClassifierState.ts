@@ -1,0 +1,76 @@
+import type { Band } from '../model/band.js';
+import type { LoopState } from '../model/loopState.js';
+import { emptyLineQuality } from './lineQuality.js';
+import type { LineQuality } from './loopTypes.js';
+
+/**
+ * Everything the classifier remembers about one loop, as plain serialisable data. Times are unwrapped
+ * decoder µs. Treat it as opaque outside src/classify: read it through the accessors below.
+ */
+export interface LoopClassifierState {
+  state: LoopState;
+  /** When `state` was entered; null until the first change. */
+  sinceUs: number | null;
+  /** Latest decoder time applied; reset on restart because the decoder's clock restarts with it. */
+  nowUs: number | null;
+  /** Latest decoder time ever heard, kept across restarts to stamp restart and offline changes. */
+  lastHeardUs: number | null;
+  band: Band | null;
+  bandSinceUs: number | null;
+  /** The current H span began with an EDGE out of N and no frames were lost since: it may be a heartbeat. */
+  highMayBePulse: boolean;
+  /** The current H or O span's start is known from an EDGE and no frames were lost since: its width is trustworthy. */
+  spanTimed: boolean;
+  /** The trip window runs from here: the last valid pulse, the first input, or the end of an open/short. */
+  tripFromUs: number | null;
+  lastPulseUs: number | null;
+  /** Start of the previous valid pulse for interval measurement; null when the chain is broken. */
+  previousPulseUs: number | null;
+  /** Consecutive valid pulses whose intervals were in tolerance (the return-to-normal count). */
+  pulsesInRhythm: number;
+  /** When the loop entered a fault state, within the intermittent window. */
+  faultEntriesUs: number[];
+  intermittent: boolean;
+  /** Set by 'offline': the next band or sync input starts over from unknown. */
+  awaitingSpeech: boolean;
+  quality: LineQuality;
+}
+
+export function initialLoopClassifier(): LoopClassifierState {
+  return {
+    state: 'unknown',
+    sinceUs: null,
+    nowUs: null,
+    lastHeardUs: null,
+    band: null,
+    bandSinceUs: null,
+    highMayBePulse: false,
+    spanTimed: false,
+    tripFromUs: null,
+    lastPulseUs: null,
+    previousPulseUs: null,
+    pulsesInRhythm: 0,
+    faultEntriesUs: [],
+    intermittent: false,
+    awaitingSpeech: false,
+    quality: emptyLineQuality(),
+  };
+}
+
+export function currentLoopState(state: LoopClassifierState): LoopState {
+  return state.state;
+}
+
+/** Start time (decoder µs) of the last valid heartbeat pulse; null since start or restart. */
+export function lastPulseUs(state: LoopClassifierState): number | null {
+  return state.lastPulseUs;
+}
+
+/** Decoder time the current state was entered; null while still in the initial unknown. */
+export function loopStateSinceUs(state: LoopClassifierState): number | null {
+  return state.sinceUs;
+}
+
+export function isIntermittent(state: LoopClassifierState): boolean {
+  return state.intermittent;
+}

@@ -1,0 +1,36 @@
+import type { LoopSettings } from './loopSettings.js';
+
+/**
+ * A loop's settings converted once into whole decoder microseconds, the unit every comparison in the
+ * classifier is made in. Rounding to 1 µs matches the decoder's own timestamp resolution, so a window
+ * expires on a time the decoder could actually have reported.
+ */
+export interface LoopWindows {
+  pulseMinUs: number;
+  pulseMaxUs: number;
+  shortUs: number;
+  openUs: number;
+  tripUs: number;
+  intervalMinUs: number;
+  intervalMaxUs: number;
+  healthyPulses: number;
+  intermittentCount: number;
+  intermittentWindowUs: number;
+}
+
+const toUs = (ms: number): number => Math.round(ms * 1000);
+
+export function loopWindows(settings: LoopSettings): LoopWindows {
+  return {
+    pulseMinUs: toUs(settings.pulseMinMs),
+    pulseMaxUs: toUs(settings.pulseMaxMs),
+    shortUs: toUs(settings.shortMs),
+    openUs: toUs(settings.openMs),
+    tripUs: toUs(settings.tripMs),
+    intervalMinUs: toUs(settings.periodMs * settings.intervalMinRatio),
+    intervalMaxUs: toUs(settings.periodMs * settings.intervalMaxRatio),
+    healthyPulses: Math.max(1, Math.floor(settings.healthyPulses)),
+    intermittentCount: Math.max(1, Math.floor(settings.intermittentCount)),
+    intermittentWindowUs: toUs(settings.intermittentWindowMs),
+  };
+}

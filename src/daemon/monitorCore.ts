@@ -1,0 +1,370 @@
+import type { Logger } from 'pino';
+import { initialAlarmBook, nextWakeAt, openAlarms, stepAlarms, SYSTEM_ACTOR, type AlarmBook } from '../alarms/alarmEngine.js';
+import type { AlarmContext, AlarmInput, AlarmStepResult } from '../alarms/alarmInput.js';
+import type { AlarmEffect, AlarmRecord } from '../alarms/alarmTypes.js';
+import { policiesFromConfig } from '../alarms/escalationPolicy.js';
+import { currentLoopState, intervalFigures, isIntermittent, emptyLineQuality, type LineQuality } from '../classify/index.js';
+import { loopSettingsFromConfig } from '../classify/loopSettings.js';
+import type { SiteConfig } from '../config/schema.js';
+import type { Condition } from '../model/condition.js';
+import type { LoopState } from '../model/loopState.js';
+import { queueNotices } from '../notify/noticeQueue.js';
+import { sessionCounters } from '../protocol/decoderSession.js';
+import { alarmInputsFor, loopsById, raiseFor, type LoopsById } from '../site/alarmInputsFor.js';
+import { indexSite, initialSiteState, stepSite, takeSiteQuality, type SiteIndex } from '../site/siteStep.js';
+import type { SiteEffect, SiteInput, SiteState } from '../site/siteTypes.js';
+import type { DurableWriter } from '../store/createDurableWriter.js';
+import type { EdgeRow } from '../store/edgeRepo.js';
+import type { Store } from '../store/openStore.js';
+
+/**
+ * The monitor's shell around the pure core: it feeds lines to the site step, maps effects to alarm
+ * inputs, and commits state changes, alarms, audit rows and queued notices in one transaction before
+ * anything acts on them. It owns no timers and reads no clock: the scheduler passes `now` in.
+ */
+export interface DecoderLinkStatus {
+  state: 'connecting' | 'connected' | 'disconnected';
+  reason: string | null;
+  sinceMs: number;
+}
+
+export interface LoopLive {
+  state: LoopState;
+  sinceMs: number;
+  lastPulseAtMs: number | null;
+  intermittent: boolean;
+  /** Quality over the current minute plus the previous full minute, for the loop page. */
+  quality: LineQuality;
+  qualitySinceMs: number;
+}
+
+export interface MonitorCoreOptions {
+  config: SiteConfig;
+  store: Store;
+  writer: DurableWriter;
+  logger: Logger;
+  now: number;
+  /** Told after every committed change, so the board can refresh. */
+  onChange?: (what: 'loops' | 'alarms') => void;
+}
+
+const EDGE_BATCH_ROWS = 2000;
+const DECODER_FAULT_QUIET_MS = 10 * 60_000;
+/** Bad+lost frames over a minute above which the decoder link counts as noisy (common practice: a few per cent). */
+const NOISY_RATIO_ON = 0.1;
+const NOISY_RATIO_OFF = 0.02;
+const NOISY_MIN_BAD = 20;
+
+export function createMonitorCore(options: MonitorCoreOptions) {
+  const { config, store, writer, logger } = options;
+  const loops: LoopsById = loopsById(config);
+  const index: SiteIndex = indexSite({
+    loops: config.loops.map((loop) => ({ id: loop.id, decoderId: loop.decoder, input: loop.input, settings: loopSettingsFromConfig(loop) })),
+    decoders: config.decoders.map((d) => ({ id: d.id, silenceMs: d.silence })),
+  });
+  const alarmContext: AlarmContext = { policies: policiesFromConfig(config), maxShelveMs: config.web.max_shelve };
+
+  let site: SiteState = initialSiteState(index.definition, options.now);
+  const statusRows = new Map(store.loopStatus.all().map((row) => [row.loopId, row]));
+  const outOfService = [...statusRows.values()].filter((row) => !row.inService).map((row) => ({ loopId: row.loopId, note: row.serviceNote ?? '' }));
+  let book: AlarmBook = initialAlarmBook(store.alarms.listOpen(), store.alarms.maxId() + 1, outOfService);
+
+  // A decoder whose offline alarm is still open from before a restart starts offline, so its first
+  // valid line clears that alarm instead of leaving it behind.
+  for (const alarm of openAlarms(book)) {
+    const decoder = site.decoders[alarm.source];
+    if (alarm.condition === 'offline' && alarm.active && decoder) site.decoders[alarm.source] = { ...decoder, offline: true };
+  }
+
+  const live = new Map<string, LoopLive>();
+  for (const loop of config.loops) {
+    live.set(loop.id, {
+      state: 'unknown',
+      sinceMs: options.now,
+      lastPulseAtMs: statusRows.get(loop.id)?.lastPulseAtMs ?? null,
+      intermittent: false,
+      quality: emptyLineQuality(),
+      qualitySinceMs: options.now,
+    });
+  }
+  const links = new Map<string, DecoderLinkStatus>(config.decoders.map((d) => [d.id, { state: 'connecting', reason: null, sinceMs: options.now }]));
+  const sessionIds = new Map<string, number>();
+  const intermittentLoops = new Set<string>();
+  const decoderFaultAt = new Map<string, number>();
+  const noisy = new Set<string>();
+  const lastMinuteCounters = new Map<string, { frames: number; bad: number; lost: number }>();
+  let edgeBuffer: EdgeRow[] = [];
+  let pendingLastPulse = new Map<string, number>();
+  let framesTotal = 0;
+
+  // Every start records the loops as unknown: the classifier decides afresh within seconds.
+  writer.commit('start', (s) => {
+    s.loopStatus.ensureLoops(config.loops.map((l) => l.id), options.now);
+    for (const loop of config.loops) {
+      const previous = s.loopStatus.get(loop.id);
+      if (previous && previous.state !== 'unknown') {
+        s.stateChanges.insert({ loopId: loop.id, from: previous.state, to: 'unknown', decoderUs: null, at: options.now, reason: 'monitor started' });
+      }
+      s.loopStatus.setState(loop.id, 'unknown', options.now);
+    }
+  });
+
+  function applyAlarmEffects(s: Store, effects: readonly AlarmEffect[], now: number): void {
+    for (const effect of effects) {
+      if (effect.kind === 'alarm') s.alarms.upsert(effect.alarm);
+      else if (effect.kind === 'audit') s.audit.insert(effect.entry);
+      else queueNotices(s.db, effect, now, config.mail.group_window);
+    }
+  }
+
+  /** Runs alarm inputs through the engine; returns the effects to commit (the book is updated at once). */
+  function runAlarms(inputs: readonly AlarmInput[], now: number): { effects: AlarmEffect[]; results: AlarmStepResult[] } {
+    const effects: AlarmEffect[] = [];
+    const results: AlarmStepResult[] = [];
+    for (const input of inputs) {
+      const result = stepAlarms(book, input, now, alarmContext);
+      results.push(result);
+      if (result.error) continue;
+      book = result.book;
+      effects.push(...result.effects);
+    }
+    return { effects, results };
+  }
+
+  function logAlarmEffects(effects: readonly AlarmEffect[]): void {
+    for (const effect of effects) {
+      if (effect.kind !== 'audit') continue;
+      const { entry } = effect;
+      if (entry.action === 'mail-sent') continue;
+      logger.info({ alarmId: entry.alarmId, loopId: entry.loopId, action: entry.action, actor: entry.actor, note: entry.note }, `alarm ${entry.action}`);
+    }
+  }
+
+  function flushEdges(): void {
+    if (edgeBuffer.length === 0) return;
+    const rows = edgeBuffer;
+    edgeBuffer = [];
+    writer.commit('edges', (s) => s.edges.insertMany(rows), { droppable: true });
+  }
+
+  /** Feeds one input (a decoder line, a link change, or the clock) through the site step and commits what follows. */
+  function handle(input: SiteInput, now: number): void {
+    const stepped = stepSite(index, site, input, now);
+    site = stepped.state;
+    if (input.kind === 'line') framesTotal += 1;
+    if (stepped.effects.length === 0) return;
+    commitSiteEffects(stepped.effects, now);
+  }
+
+  function commitSiteEffects(effects: readonly SiteEffect[], now: number): void {
+    const changes: Array<{ loopId: string; from: LoopState; to: LoopState; atMs: number; decoderUs: number | null; reason: string }> = [];
+    const alarmInputs: AlarmInput[] = [];
+    const decoderWork: Array<(s: Store) => void> = [];
+    for (const effect of effects) {
+      switch (effect.kind) {
+        case 'edge':
+          edgeBuffer.push({ decoderId: effect.decoderId, input: effect.input, band: effect.band, decoderUs: effect.decoderUs, at: effect.atMs });
+          break;
+        case 'loop': {
+          const loopLive = live.get(effect.loopId);
+          const e = effect.effect;
+          if (!loopLive) break;
+          if (e.kind === 'pulse') {
+            loopLive.lastPulseAtMs = effect.atMs;
+            pendingLastPulse.set(effect.loopId, effect.atMs);
+          } else if (e.kind === 'state') {
+            loopLive.state = e.to;
+            loopLive.sinceMs = effect.atMs;
+            changes.push({ loopId: effect.loopId, from: e.from, to: e.to, atMs: effect.atMs, decoderUs: e.atUs ?? null, reason: e.reason });
+            logger.info({ loopId: effect.loopId, from: e.from, to: e.to, reason: e.reason }, `loop ${effect.loopId}: ${e.from} → ${e.to}`);
+          } else if (e.kind === 'intermittent') {
+            loopLive.intermittent = e.on;
+            if (e.on) intermittentLoops.add(effect.loopId);
+            else intermittentLoops.delete(effect.loopId);
+          }
+          break;
+        }
+        case 'decoder': {
+          const { event, decoderId } = effect;
+          if (event.kind === 'hello') {
+            logger.info({ decoderId, firmware: event.firmware, loops: event.loops }, `decoder ${decoderId} started (HELLO, firmware ${event.firmware})`);
+            decoderWork.push((s) => {
+              const id = sessionIds.get(decoderId);
+              if (id !== undefined) s.decoderSessions.hello(id, now, event.firmware, event.loops);
+            });
+            const decoderConfig = config.decoders.find((d) => d.id === decoderId);
+            if (decoderConfig?.inputs !== undefined && event.loops !== decoderConfig.inputs) {
+              logger.warn({ decoderId, hello: event.loops, configured: decoderConfig.inputs }, `decoder ${decoderId} reports ${event.loops} loops but the config says inputs: ${decoderConfig.inputs}`);
+            }
+          } else if (event.kind === 'fault') {
+            decoderFaultAt.set(decoderId, now);
+            logger.warn({ decoderId, code: event.code }, `decoder ${decoderId} reported FAULT ${event.code}`);
+          } else if (event.kind === 'dropped') {
+            logger.debug({ decoderId, reason: event.reason, detail: event.detail }, 'dropped a line');
+          }
+          break;
+        }
+        case 'decoder-offline':
+          logger.warn({ decoderId: effect.decoderId, reason: effect.reason }, `decoder ${effect.decoderId} offline: ${effect.reason}`);
+          break;
+        case 'decoder-online':
+          logger.info({ decoderId: effect.decoderId }, `decoder ${effect.decoderId} is talking again`);
+          break;
+      }
+      alarmInputs.push(...alarmInputsFor(loops, effect, intermittentLoops));
+    }
+    if (edgeBuffer.length >= EDGE_BATCH_ROWS) flushEdges();
+    if (changes.length === 0 && alarmInputs.length === 0 && decoderWork.length === 0) return;
+
+    const { effects: alarmEffects } = runAlarms(alarmInputs, now);
+    // Edges first, so the raw evidence for a state change is stored with it.
+    flushEdges();
+    writer.commit('state', (s) => {
+      for (const change of changes) {
+        s.stateChanges.insert({ loopId: change.loopId, from: change.from, to: change.to, decoderUs: change.decoderUs, at: change.atMs, reason: change.reason });
+        s.loopStatus.setState(change.loopId, change.to, change.atMs);
+      }
+      for (const work of decoderWork) work(s);
+      applyAlarmEffects(s, alarmEffects, now);
+    });
+    logAlarmEffects(alarmEffects);
+    if (changes.length > 0) options.onChange?.('loops');
+    if (alarmEffects.length > 0) options.onChange?.('alarms');
+  }
+
+  /** An operator's or the system's action on alarms; refused actions come back with their error. */
+  function alarmAction(input: AlarmInput, now: number): AlarmStepResult {
+    const [result] = runAlarms([input], now).results;
+    if (!result || result.error) return result ?? { book, effects: [] };
+    writer.commit(`alarm ${input.kind}`, (s) => {
+      if (input.kind === 'out-of-service' || input.kind === 'return-to-service') {
+        s.loopStatus.setService(input.loopId, input.kind === 'return-to-service', input.note, input.actor, now);
+      }
+      applyAlarmEffects(s, result.effects, now);
+    });
+    logAlarmEffects(result.effects);
+    options.onChange?.('alarms');
+    if (input.kind === 'out-of-service' || input.kind === 'return-to-service') options.onChange?.('loops');
+    return result;
+  }
+
+  function raiseSystem(condition: Condition, now: number): void {
+    alarmAction(raiseFor(loops, 'system', null, condition), now);
+  }
+
+  function clearSystem(condition: Condition, now: number): void {
+    alarmAction({ kind: 'clear', source: 'system', condition }, now);
+  }
+
+  /** Called a few times a second: silence detection, shelf expiry, escalation steps and repeats. */
+  function tick(now: number): void {
+    handle({ kind: 'clock' }, now);
+    for (const [decoderId, at] of decoderFaultAt) {
+      if (now - at >= DECODER_FAULT_QUIET_MS) {
+        decoderFaultAt.delete(decoderId);
+        alarmAction({ kind: 'clear', source: decoderId, condition: 'decoder-fault' }, now);
+      }
+    }
+    const wake = nextWakeAt(book);
+    if (wake !== null && wake <= now) alarmAction({ kind: 'tick' }, now);
+  }
+
+  /** Once a minute: line-quality rows, last pulses, decoder counters, noisy-link check. */
+  function minute(now: number, bucketMs: number): void {
+    const taken = takeSiteQuality(site);
+    site = taken.state;
+    const lastPulses = pendingLastPulse;
+    pendingLastPulse = new Map();
+    for (const { loopId, quality } of taken.qualities) {
+      const loopLive = live.get(loopId);
+      if (loopLive) {
+        loopLive.quality = quality;
+        loopLive.qualitySinceMs = bucketMs;
+      }
+    }
+    const counters = config.decoders.map((d) => {
+      const decoder = site.decoders[d.id]!;
+      return { decoderId: d.id, counts: sessionCounters(decoder.session) };
+    });
+    flushEdges();
+    writer.commit(
+      'minute',
+      (s) => {
+        for (const { loopId, quality } of taken.qualities) s.lineQuality.upsertMinute(loopId, bucketMs, quality);
+        for (const [loopId, at] of lastPulses) s.loopStatus.setLastPulse(loopId, at);
+        for (const { decoderId, counts } of counters) {
+          const id = sessionIds.get(decoderId);
+          if (id !== undefined) s.decoderSessions.counters(id, { frames: counts.frames, badFrames: counts.dropped, lostFrames: counts.lost }, now);
+        }
+      },
+      { droppable: true },
+    );
+    for (const { decoderId, counts } of counters) {
+      const previous = lastMinuteCounters.get(decoderId) ?? { frames: 0, bad: 0, lost: 0 };
+      lastMinuteCounters.set(decoderId, { frames: counts.frames, bad: counts.dropped, lost: counts.lost });
+      const frames = Math.max(0, counts.frames - previous.frames);
+      const bad = Math.max(0, counts.dropped - previous.bad) + Math.max(0, counts.lost - previous.lost);
+      const ratio = frames + bad === 0 ? 0 : bad / (frames + bad);
+      if (!noisy.has(decoderId) && bad >= NOISY_MIN_BAD && ratio >= NOISY_RATIO_ON) {
+        noisy.add(decoderId);
+        logger.warn({ decoderId, bad, frames }, `decoder ${decoderId} link is noisy: ${bad} bad or lost frames in a minute`);
+        alarmAction(raiseFor(loops, decoderId, null, 'link-noisy'), now);
+      } else if (noisy.has(decoderId) && ratio < NOISY_RATIO_OFF) {
+        noisy.delete(decoderId);
+        alarmAction({ kind: 'clear', source: decoderId, condition: 'link-noisy' }, now);
+      }
+    }
+  }
+
+  function linkStatus(decoderId: string, status: { state: DecoderLinkStatus['state']; reason?: string }, now: number): void {
+    const previous = links.get(decoderId);
+    links.set(decoderId, { state: status.state, reason: status.reason ?? null, sinceMs: now });
+    if (status.state === 'connected' && previous?.state !== 'connected') {
+      logger.info({ decoderId }, `decoder ${decoderId} port open`);
+      writer.commit('session open', (s) => {
+        sessionIds.set(decoderId, s.decoderSessions.open(decoderId, now));
+      });
+      lastMinuteCounters.delete(decoderId);
+      handle({ kind: 'link-up', decoderId }, now);
+    } else if (status.state === 'disconnected' && previous?.state === 'connected') {
+      const reason = status.reason ?? 'port closed';
+      const counts = sessionCounters(site.decoders[decoderId]!.session);
+      writer.commit('session close', (s) => {
+        const id = sessionIds.get(decoderId);
+        if (id === undefined) return;
+        s.decoderSessions.counters(id, { frames: counts.frames, badFrames: counts.dropped, lostFrames: counts.lost }, now);
+        s.decoderSessions.close(id, now, reason);
+      });
+      handle({ kind: 'link-down', decoderId, reason }, now);
+    }
+    options.onChange?.('loops');
+  }
+
+  return {
+    handle,
+    line(decoderId: string, line: string, now: number) {
+      handle({ kind: 'line', decoderId, line }, now);
+    },
+    linkStatus,
+    alarmAction,
+    raiseSystem,
+    clearSystem,
+    tick,
+    minute,
+    flushEdges,
+    /** Plain snapshots for the read model. */
+    loopLive: (loopId: string) => live.get(loopId) ?? null,
+    linkOf: (decoderId: string) => links.get(decoderId) ?? null,
+    decoderRuntime: (decoderId: string) => site.decoders[decoderId] ?? null,
+    openAlarms: (): AlarmRecord[] => openAlarms(book),
+    isLoopInService: (loopId: string) => !book.outOfService.some((o) => o.loopId === loopId),
+    outOfServiceNote: (loopId: string) => book.outOfService.find((o) => o.loopId === loopId)?.note ?? null,
+    classifierState: (loopId: string) => currentLoopState(site.loops[loopId]!),
+    isIntermittent: (loopId: string) => isIntermittent(site.loops[loopId]!),
+    framesTotal: () => framesTotal,
+    intervalFigures,
+  };
+}
+
+export type MonitorCore = ReturnType<typeof createMonitorCore>;
+export { SYSTEM_ACTOR };

@@ -1,0 +1,26 @@
+import { join } from 'node:path';
+import type { Logger } from 'pino';
+import type { SiteConfig } from '../config/schema.js';
+import { applyRetention } from '../store/applyRetention.js';
+import { dailyBackup } from '../store/dailyBackup.js';
+import type { Store } from '../store/openStore.js';
+
+const DAY_MS = 86_400_000;
+const LAST_RUN_KEY = 'daemon.maintenance.last_run';
+
+/**
+ * The daily housekeeping: retention and compaction, then the daily backup. Checked every hour and run
+ * when a day has passed since the last run (kept in the database, so a restart does not repeat it).
+ */
+export async function runMaintenance(options: { config: SiteConfig; store: Store; now: number; logger: Logger; force?: boolean }): Promise<boolean> {
+  const { config, store, now, logger } = options;
+  const last = Number(store.kv.get(LAST_RUN_KEY) ?? 0);
+  if (!options.force && now - last < DAY_MS) return false;
+  store.kv.set(LAST_RUN_KEY, String(now));
+  const retention = applyRetention(store, config.storage.retention, now);
+  logger.info(retention, `retention applied: ${retention.edgesDeleted} old edges removed, database ${retention.bytesAfter} bytes`);
+  const dir = join(store.path, '..', 'backups');
+  const backup = await dailyBackup(store, dir, config.storage.retention.backups_kept, now, config.site.timezone);
+  if (backup.backup) logger.info({ backup: backup.backup, removed: backup.removed }, 'daily backup written');
+  return true;
+}

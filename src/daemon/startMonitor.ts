@@ -1,0 +1,281 @@
+import { mkdirSync } from 'node:fs';
+import { dirname, resolve } from 'node:path';
+import type { Logger } from 'pino';
+import type { SiteConfig } from '../config/schema.js';
+import { createDecoderLink } from '../ingest/createDecoderLink.js';
+import { loadOrCreateAckSecret } from '../notify/ackSecret.js';
+import { composeDailyReport } from '../notify/composeDailyReport.js';
+import { composeLifecycleMail, type LifecycleEvent } from '../notify/composeLifecycleMail.js';
+import { dropFolderFor } from '../notify/dropFolder.js';
+import { flushDigests } from '../notify/flushDigests.js';
+import { createDropFolderTransport, createSmtpTransport, type MailTransport } from '../notify/mailTransport.js';
+import { nextReportAt } from '../notify/nextReportAt.js';
+import { mailbox, noticeSettingsFromConfig, publicUrlFor } from '../notify/noticeSettings.js';
+import { createOutboxWorker } from '../notify/outboxWorker.js';
+import { createDurableWriter } from '../store/createDurableWriter.js';
+import { openStore, type Store } from '../store/openStore.js';
+import { enqueueOutbox } from '../store/outboxRepo.js';
+import { buildWebServer } from '../web/buildWebServer.js';
+import { webListenWarnings } from '../web/webListenWarnings.js';
+import { createLiveFeed } from './createLiveFeed.js';
+import { createReadModel } from './createReadModel.js';
+import { createWebCommands } from './createWebCommands.js';
+import { gatherDailyReport } from './gatherDailyReport.js';
+import { createMonitorCore } from './monitorCore.js';
+import { runMaintenance } from './runMaintenance.js';
+
+/**
+ * Wires the monitor together — the one place where the pure core meets serial ports, SQLite, mail
+ * and HTTP — and owns every timer. `now` is injectable so tests can drive the clock.
+ */
+export interface StartMonitorOptions {
+  config: SiteConfig;
+  /** Folder the config file is in: `sim:FILE` ports are resolved against it. */
+  configDir: string;
+  logger: Logger;
+  now?: () => number;
+  /** Override the mail transport (tests). Default: SMTP when configured, else .eml files. */
+  transport?: MailTransport;
+  /** Listen for HTTP (default true). Tests may use `monitor.web.inject` instead. */
+  listen?: boolean;
+  env?: NodeJS.ProcessEnv;
+  version?: string;
+  /** Send the "monitoring started" mail (default true). */
+  announce?: boolean;
+}
+
+const FAST_TICK_MS = 250;
+const NOTIFY_TICK_MS = 1000;
+const MAINTENANCE_CHECK_MS = 3_600_000;
+
+export async function startMonitor(options: StartMonitorOptions) {
+  const { config, logger } = options;
+  const now = options.now ?? Date.now;
+  const env = options.env ?? process.env;
+  const startedAt = now();
+  const dbPath = resolve(config.storage.path);
+  const dataDir = dirname(dbPath);
+  mkdirSync(dataDir, { recursive: true });
+
+  const store: Store = openStore({ path: dbPath });
+  if (store.opened.backupFile) logger.info({ backup: store.opened.backupFile }, 'database backed up before migrating');
+
+  // The core is created after the writer, which must report to it: bind late.
+  let core: ReturnType<typeof createMonitorCore> | null = null;
+  const writer = createDurableWriter({
+    store,
+    now,
+    onFailing(failure) {
+      logger.error({ failure }, `storage failing: ${failure.message} — classifying in memory, retrying`);
+      core?.raiseSystem('storage-failing', now());
+    },
+    onRecovered(info) {
+      logger.info(info, 'storage writing again');
+      core?.clearSystem('storage-failing', now());
+    },
+    onRejected(label, error) {
+      logger.error({ label, err: error }, `a write was refused by the database and dropped (${label})`);
+    },
+  });
+  const live = createLiveFeed();
+  core = createMonitorCore({ config, store, writer, logger, now: startedAt, onChange: (what) => live.publish({ type: what }) });
+  const monitorCore = core;
+
+  const ackSecret = loadOrCreateAckSecret(dataDir);
+  const noticeSettings = noticeSettingsFromConfig(config, ackSecret);
+  let transport: MailTransport;
+  if (options.transport) transport = options.transport;
+  else if (config.mail.smtp) transport = createSmtpTransport(config.mail.smtp, env);
+  else {
+    const folder = resolve(dropFolderFor(config));
+    transport = createDropFolderTransport(folder);
+    logger.info({ folder }, `no SMTP server configured: mail is written as .eml files into ${folder}`);
+  }
+  const worker = createOutboxWorker({
+    db: store.db,
+    transport,
+    now,
+    failingAfter: config.mail.failing_after,
+    retryFirstMs: config.mail.retry_first,
+    retryMaxMs: config.mail.retry_max,
+    initiallyFailing: monitorCore.openAlarms().some((a) => a.condition === 'mail-failing' && a.active),
+    onFailing: (reason) => {
+      logger.error({ reason }, `mail failing: ${reason}`);
+      monitorCore.raiseSystem('mail-failing', now());
+    },
+    onRecovered: () => {
+      logger.info('mail flowing again');
+      monitorCore.clearSystem('mail-failing', now());
+    },
+    onSent: (row) => logger.info({ messageId: row.messageId, to: row.to, subject: row.subject }, `mail sent: ${row.subject}`),
+    logger,
+  });
+
+  const read = createReadModel({ config, store, core: monitorCore, writer, mailFailing: () => worker.isFailing(), now });
+  const commands = createWebCommands(config, monitorCore, now);
+  const web = buildWebServer({ config, db: store.db, read, commands, live, ackSecret, now, logger });
+  for (const warning of webListenWarnings(config)) logger.warn(warning);
+
+  const envelopeTo = (ids: readonly string[]) =>
+    config.contacts.filter((c) => ids.length === 0 || ids.includes(c.id)).map((c) => mailbox(c));
+  const reportTo = envelopeTo(config.report.notify);
+  const lifecycleTo = config.report.notify.length > 0 ? reportTo : envelopeTo([]);
+  const envelope = (to: string[]) => ({ from: config.mail.from, to, newMessageId: noticeSettings.newMessageId });
+  let nextReport = nextReportAt(startedAt, config.report.at, config.site.timezone);
+
+  const enqueue = (label: string, message: Parameters<typeof enqueueOutbox>[1]) => {
+    writer.commit(label, (s) => {
+      enqueueOutbox(s.db, message, now());
+    });
+  };
+  const lifecycleMail = (event: LifecycleEvent, reason: string | null) => {
+    if (lifecycleTo.length === 0) return;
+    enqueue(
+      `${event} mail`,
+      composeLifecycleMail(
+        event,
+        {
+          siteName: config.site.name,
+          timeZone: config.site.timezone,
+          publicUrl: publicUrlFor(config.web),
+          at: now(),
+          loopCount: config.loops.length,
+          decoderCount: config.decoders.length,
+          nextReportAt: reportTo.length > 0 ? nextReport : null,
+          reason,
+          version: options.version ?? null,
+        },
+        envelope(lifecycleTo),
+      ),
+    );
+  };
+
+  // --- timers -----------------------------------------------------------------------------------
+  const timers: NodeJS.Timeout[] = [];
+  let stopping = false;
+  let notifyBusy = false;
+
+  const fast = setInterval(() => {
+    const t = now();
+    monitorCore.tick(t);
+    monitorCore.flushEdges();
+    if (writer.pending() > 0) writer.flush();
+  }, FAST_TICK_MS);
+  timers.push(fast);
+
+  async function runNotifications(flushAll = false): Promise<void> {
+    if (notifyBusy) return;
+    notifyBusy = true;
+    try {
+      if (writer.status().failing === null) {
+        // On a stop, notices still inside their grouping window go out now rather than wait for a restart.
+        flushDigests(store.db, now() + (flushAll ? config.mail.group_window : 0), noticeSettings);
+        await worker.runOnce();
+      }
+    } catch (err) {
+      logger.error({ err }, `notification round failed: ${(err as Error).message}`);
+    } finally {
+      notifyBusy = false;
+    }
+  }
+  timers.push(setInterval(() => void runNotifications(), NOTIFY_TICK_MS));
+
+  const scheduleMinute = () => {
+    const t = now();
+    const nextBoundary = Math.floor(t / 60_000) * 60_000 + 60_000;
+    const timer = setTimeout(() => {
+      if (stopping) return;
+      monitorCore.minute(now(), nextBoundary - 60_000);
+      scheduleMinute();
+    }, Math.max(0, nextBoundary - t));
+    timers.push(timer);
+  };
+  scheduleMinute();
+
+  const scheduleReport = () => {
+    const delay = Math.max(0, Math.min(nextReport - now(), 6 * 3_600_000));
+    const timer = setTimeout(() => {
+      if (stopping) return;
+      const t = now();
+      if (t >= nextReport) {
+        const following = nextReportAt(t + 1000, config.report.at, config.site.timezone);
+        if (reportTo.length > 0) {
+          const data = gatherDailyReport({ config, store, read, now: t, nextReportAt: following, monitorStartedAt: startedAt });
+          enqueue('daily report', composeDailyReport(data, envelope(reportTo)));
+          logger.info({ next: new Date(following).toISOString() }, 'daily report queued');
+        }
+        nextReport = following;
+      }
+      scheduleReport();
+    }, delay);
+    timers.push(timer);
+  };
+  scheduleReport();
+
+  const maintenance = () => {
+    if (stopping) return;
+    try {
+      void runMaintenance({ config, store, now: now(), logger }).catch((err: unknown) => logger.error({ err }, `daily maintenance failed: ${(err as Error).message}`));
+    } catch (err) {
+      logger.error({ err }, `daily maintenance failed: ${(err as Error).message}`);
+    }
+  };
+  timers.push(setInterval(maintenance, MAINTENANCE_CHECK_MS));
+  timers.push(setTimeout(maintenance, 60_000));
+
+  // --- decoders -----------------------------------------------------------------------------------
+  const links = config.decoders.map((decoder) =>
+    createDecoderLink({
+      port: decoder.port,
+      baud: decoder.baud,
+      scenarioBaseDir: options.configDir,
+      onLine: (line) => monitorCore.line(decoder.id, line, now()),
+      // A bug in handling one line must not take the monitor down: log it loudly and carry on.
+      onCallbackError: (err) => logger.error({ err, decoderId: decoder.id }, `error handling decoder input: ${(err as Error).message}`),
+      onStatus: (status) => {
+        // Closing the links on a deliberate stop is not the decoder going offline.
+        if (stopping) return;
+        if (status.state === 'disconnected') logger.warn({ decoderId: decoder.id, reason: status.reason }, `decoder ${decoder.id} port: ${status.reason ?? 'disconnected'}`);
+        monitorCore.linkStatus(decoder.id, status, now());
+      },
+    }),
+  );
+
+  let address: string | null = null;
+  if (options.listen !== false) {
+    const [host, portText] = splitListen(config.web.listen);
+    address = await web.listen({ host, port: Number(portText) });
+    logger.info({ address }, `web server listening on ${address}`);
+  }
+  if (options.announce !== false) lifecycleMail('started', null);
+  logger.info({ site: config.site.name, loops: config.loops.length, decoders: config.decoders.length }, `monitoring ${config.site.name}: ${config.loops.length} loop(s)`);
+
+  /** Graceful stop: finish writes, queue and try to send "monitoring stopped", close the database. */
+  async function stop(reason: string, deadlineMs = 8000): Promise<void> {
+    if (stopping) return;
+    stopping = true;
+    const deadline = now() + deadlineMs;
+    for (const timer of timers) clearTimeout(timer);
+    await Promise.allSettled(links.map((link) => link.close()));
+    monitorCore.flushEdges();
+    lifecycleMail('stopped', reason);
+    writer.flush();
+    // Try to get pending mail out, but never past the deadline: the outbox keeps what is left.
+    const remaining = Math.max(0, deadline - now());
+    await Promise.race([runNotifications(true), new Promise((r) => setTimeout(r, remaining))]);
+    await web.close().catch(() => undefined);
+    writer.flush();
+    store.close();
+    logger.info({ reason }, 'monitor stopped');
+  }
+
+  return { core: monitorCore, store, writer, web, worker, read, commands, address, stop, runNotifications, dataDir, mailFolder: config.mail.smtp ? null : resolve(dropFolderFor(config)) };
+}
+
+export type Monitor = Awaited<ReturnType<typeof startMonitor>>;
+
+export function splitListen(listen: string): [string, string] {
+  const at = listen.lastIndexOf(':');
+  const host = listen.slice(0, at).replace(/^\[(.*)\]$/, '$1');
+  return [host, listen.slice(at + 1)];
+}

@@ -1,0 +1,86 @@
+import { createHmac, randomBytes, timingSafeEqual } from 'node:crypto';
+
+/**
+ * Signed acknowledge-link tokens. A token names one alarm, an expiry and a single-use id, and is
+ * signed with HMAC-SHA256 (RFC 2104, FIPS 198-1) under the site's secret. Every character is from
+ * RFC 3986's unreserved set, so the token sits in a URL path without escaping.
+ *
+ * Layout: `a1.<alarmId>.<expiresAt epoch ms>.<tokenId>.<base64url MAC>`
+ */
+const TOKEN_VERSION = 'a1';
+const MAC_LABEL = 'pairwatch-ack';
+const MAC_BYTES = 32;
+const TOKEN_ID_RE = /^[A-Za-z0-9_-]{8,64}$/;
+const ALARM_ID_RE = /^[1-9]\d{0,15}$/;
+const EXPIRES_RE = /^\d{1,16}$/;
+const MAC_RE = /^[A-Za-z0-9_-]{43}$/;
+
+export interface AckTokenClaims {
+  alarmId: number;
+  expiresAt: number;
+  tokenId: string;
+}
+
+export type AckTokenCheck =
+  | { ok: true; alarmId: number; tokenId: string; expiresAt: number }
+  | { ok: false; reason: 'malformed' | 'forged' | 'expired' };
+
+/** A fresh single-use id: 128 random bits, base64url. */
+export function newAckTokenId(): string {
+  return randomBytes(16).toString('base64url');
+}
+
+/** The MAC over a token's signed part. Exported so tests can hold it against the RFC 4231 vectors. */
+export function computeAckMac(payload: string, secret: Buffer): Buffer {
+  return createHmac('sha256', secret).update(payload, 'utf8').digest();
+}
+
+function signedPart(alarmId: number, expiresAt: number, tokenId: string): string {
+  return `${TOKEN_VERSION}.${alarmId}.${expiresAt}.${tokenId}`;
+}
+
+function macInput(part: string): string {
+  // A label keeps this MAC from ever matching one the same secret might sign for another purpose.
+  return `${MAC_LABEL}:${part}`;
+}
+
+export function signAckToken(claims: AckTokenClaims, secret: Buffer): string {
+  const { alarmId, expiresAt, tokenId } = claims;
+  if (!Number.isSafeInteger(alarmId) || alarmId < 1) throw new RangeError(`alarmId must be a positive integer, got ${alarmId}`);
+  if (!Number.isSafeInteger(expiresAt) || expiresAt < 0) throw new RangeError(`expiresAt must be epoch milliseconds, got ${expiresAt}`);
+  if (!TOKEN_ID_RE.test(tokenId)) throw new RangeError('tokenId must be 8–64 characters of A-Z a-z 0-9 _ -');
+  const part = signedPart(alarmId, expiresAt, tokenId);
+  return `${part}.${computeAckMac(macInput(part), secret).toString('base64url')}`;
+}
+
+/**
+ * Checks shape, then signature (constant-time), then expiry — in that order, so an unsigned token
+ * learns nothing about expiry. Whether the token was already used is the caller's (ackTokenRepo).
+ */
+export function verifyAckToken(token: string, secret: Buffer, now: number): AckTokenCheck {
+  if (typeof token !== 'string' || token.length > 200) return { ok: false, reason: 'malformed' };
+  const parts = token.split('.');
+  if (parts.length !== 5) return { ok: false, reason: 'malformed' };
+  const [version, alarmText, expiresText, tokenId, macText] = parts as [string, string, string, string, string];
+  if (
+    version !== TOKEN_VERSION ||
+    !ALARM_ID_RE.test(alarmText) ||
+    !EXPIRES_RE.test(expiresText) ||
+    !TOKEN_ID_RE.test(tokenId) ||
+    !MAC_RE.test(macText)
+  ) {
+    return { ok: false, reason: 'malformed' };
+  }
+  const alarmId = Number(alarmText);
+  const expiresAt = Number(expiresText);
+  if (!Number.isSafeInteger(alarmId) || !Number.isSafeInteger(expiresAt)) return { ok: false, reason: 'malformed' };
+
+  const expected = computeAckMac(macInput(signedPart(alarmId, expiresAt, tokenId)), secret);
+  const given = Buffer.from(macText, 'base64url');
+  // Re-encoding guards against non-canonical base64url spellings of the same bytes.
+  if (given.length !== MAC_BYTES || given.toString('base64url') !== macText || !timingSafeEqual(given, expected)) {
+    return { ok: false, reason: 'forged' };
+  }
+  if (now >= expiresAt) return { ok: false, reason: 'expired' };
+  return { ok: true, alarmId, tokenId, expiresAt };
+}

@@ -1,0 +1,61 @@
+import type { SiteConfig } from '../config/schema.js';
+import { createMessageIdFactory, messageIdDomain } from './messageId.js';
+import { newAckTokenId } from './ackToken.js';
+
+export interface ContactRef {
+  id: string;
+  name: string;
+  email: string;
+}
+
+export interface LoopRef {
+  id: string;
+  name: string;
+  location?: string | null | undefined;
+}
+
+export interface DecoderRef {
+  id: string;
+  name?: string | null | undefined;
+}
+
+/** What composing notice mail needs that does not change between mails. */
+export interface NoticeSettings {
+  siteName: string;
+  timeZone: string;
+  from: string;
+  /** Base URL people reach the web server at; acknowledge links hang off it. */
+  publicUrl: string;
+  contacts: readonly ContactRef[];
+  loops: readonly LoopRef[];
+  decoders?: readonly DecoderRef[] | undefined;
+  /** Signs acknowledge links; null leaves them out. */
+  ack: { secret: Buffer; ttlMs: number; newTokenId: () => string } | null;
+  newMessageId: () => string;
+}
+
+/** `http://127.0.0.1:8080` from `listen`, unless `public_url` says otherwise; no trailing slash. */
+export function publicUrlFor(web: SiteConfig['web']): string {
+  const base = web.public_url ?? `${web.tls ? 'https' : 'http'}://${web.listen}`;
+  return base.replace(/\/+$/, '');
+}
+
+/** Settings from the site config and the signing key (loadOrCreateAckSecret). */
+export function noticeSettingsFromConfig(config: SiteConfig, ackSecret: Buffer | null): NoticeSettings {
+  return {
+    siteName: config.site.name,
+    timeZone: config.site.timezone,
+    from: config.mail.from,
+    publicUrl: publicUrlFor(config.web),
+    contacts: config.contacts,
+    loops: config.loops.map((loop) => ({ id: loop.id, name: loop.name, location: loop.location ?? null })),
+    decoders: config.decoders.map((decoder) => ({ id: decoder.id, name: decoder.name ?? null })),
+    ack: ackSecret ? { secret: ackSecret, ttlMs: config.web.ack_link_ttl, newTokenId: newAckTokenId } : null,
+    newMessageId: createMessageIdFactory(messageIdDomain(config.mail.from)),
+  };
+}
+
+/** A mailbox for a To field, with the display name quoted so commas or quotes in it cannot split the address. */
+export function mailbox(contact: ContactRef): string {
+  return `"${contact.name.replace(/["\\]/g, '\\$&')}" <${contact.email}>`;
+}

@@ -1,0 +1,191 @@
+import type { DecoderEvent } from './decoderEvent.js';
+import { DROP_REASONS, MAX_LINE_BYTES, SEQ_MODULO, TIME_MODULO, type DropReason, type Frame } from './frame.js';
+import { parseLine } from './parseLine.js';
+
+/**
+ * Pure per-connection state of one decoder link: what the last HELLO said, the sequence number and
+ * clock expectations, and the counters. `stepDecoderSession` turns one line into decoder events on
+ * a monotonic, unwrapped decoder time.
+ *
+ * Time: `decoderUs` is the decoder's own µs count, unwrapped across the 32-bit wrap. It starts at the
+ * first frame's raw time and never goes backwards within a session: after a HELLO (the decoder
+ * restarted, its clock from 0) time continues from the last value seen plus the new raw time.
+ */
+export interface DecoderCounters {
+  /** Every line handed in, good or bad. */
+  readonly lines: number;
+  /** Lines accepted as frames (HELLO included). */
+  readonly frames: number;
+  /** Lines dropped, in total and by reason. */
+  readonly dropped: number;
+  readonly droppedBy: Readonly<Record<DropReason, number>>;
+  /** Frames missing by sequence number (gaps, counted modulo 65536). */
+  readonly lost: number;
+  readonly hellos: number;
+  /** The clock jumped back without a HELLO: a restart whose HELLO we missed. */
+  readonly silentRestarts: number;
+  /** Frames stamped slightly earlier than the one before; given the previous time. */
+  readonly lateFrames: number;
+}
+
+export interface DecoderSession {
+  readonly hello: { readonly loops: number; readonly firmware: string } | null;
+  /** The seq the next EDGE/TICK/FAULT should carry; null until one is seen (we may join mid-stream). */
+  readonly expectedSeq: number | null;
+  /** Raw 32-bit time of the latest frame, the unwrap anchor; null after a restart. */
+  readonly lastRawTime: number | null;
+  /** Unwrapped time the raw clock counts from since the last (re)start. */
+  readonly baseUs: number;
+  readonly lastDecoderUs: number | null;
+  readonly counters: DecoderCounters;
+}
+
+/** A clock step back of up to this much is a frame sent late (queued edge), not a restart. */
+export const LATE_FRAME_SLACK_US = 1_000_000;
+const HALF_WRAP = TIME_MODULO / 2;
+
+export function initialDecoderSession(): DecoderSession {
+  return {
+    hello: null,
+    expectedSeq: null,
+    lastRawTime: null,
+    baseUs: 0,
+    lastDecoderUs: null,
+    counters: {
+      lines: 0,
+      frames: 0,
+      dropped: 0,
+      droppedBy: Object.fromEntries(DROP_REASONS.map((r) => [r, 0])) as Record<DropReason, number>,
+      lost: 0,
+      hellos: 0,
+      silentRestarts: 0,
+      lateFrames: 0,
+    },
+  };
+}
+
+export interface SessionStep {
+  session: DecoderSession;
+  events: DecoderEvent[];
+}
+
+export function stepDecoderSession(session: DecoderSession, line: string): SessionStep {
+  const counted: DecoderSession = { ...session, counters: { ...session.counters, lines: session.counters.lines + 1 } };
+  const outcome = parseLine(line);
+  if (!outcome.ok) return dropped(counted, outcome.reason, outcome.detail);
+  return acceptFrame(counted, outcome.frame);
+}
+
+/** Over-long lines the splitter discarded: each is one more `too-long` drop. */
+export function recordOverlong(session: DecoderSession, count: number): SessionStep {
+  let current = session;
+  const events: DecoderEvent[] = [];
+  for (let i = 0; i < count; i++) {
+    const counted = { ...current, counters: { ...current.counters, lines: current.counters.lines + 1 } };
+    const step = dropped(counted, 'too-long', `line longer than ${MAX_LINE_BYTES} bytes discarded`);
+    current = step.session;
+    events.push(...step.events);
+  }
+  return { session: current, events };
+}
+
+/** The counters the shell stores and shows (decoder_sessions.frames / bad_frames / lost_frames). */
+export function sessionCounters(session: DecoderSession): DecoderCounters & { lastDecoderUs: number | null; firmware: string | null; loops: number | null } {
+  return { ...session.counters, lastDecoderUs: session.lastDecoderUs, firmware: session.hello?.firmware ?? null, loops: session.hello?.loops ?? null };
+}
+
+function dropped(session: DecoderSession, reason: DropReason, detail: string): SessionStep {
+  const c = session.counters;
+  return {
+    session: { ...session, counters: { ...c, dropped: c.dropped + 1, droppedBy: { ...c.droppedBy, [reason]: c.droppedBy[reason] + 1 } } },
+    events: [{ kind: 'dropped', reason, detail }],
+  };
+}
+
+function acceptFrame(session: DecoderSession, frame: Frame): SessionStep {
+  if (frame.type === 'HELLO') {
+    // A decoder restart: its seq starts again at 0 and its clock at 0; our time carries on from here.
+    return {
+      session: {
+        ...session,
+        hello: { loops: frame.loops, firmware: frame.firmware },
+        expectedSeq: 0,
+        lastRawTime: null,
+        baseUs: session.lastDecoderUs ?? 0,
+        counters: { ...session.counters, frames: session.counters.frames + 1, hellos: session.counters.hellos + 1 },
+      },
+      events: [{ kind: 'hello', version: 1, loops: frame.loops, firmware: frame.firmware }],
+    };
+  }
+
+  const events: DecoderEvent[] = [];
+  let next = advanceClock(session, frame.time);
+  const decoderUs = next.lastDecoderUs!;
+  if (next.counters.silentRestarts > session.counters.silentRestarts) {
+    // The decoder restarted and its HELLO never reached us: say so as the restart fault it is.
+    events.push({ kind: 'fault', code: 'RESTART', decoderUs });
+  }
+
+  if (next.expectedSeq !== null && frame.seq !== next.expectedSeq) {
+    const gap = (frame.seq - next.expectedSeq + SEQ_MODULO) % SEQ_MODULO;
+    next = { ...next, counters: { ...next.counters, lost: next.counters.lost + gap } };
+    events.push({ kind: 'lost', count: gap, decoderUs });
+  }
+  next = { ...next, expectedSeq: (frame.seq + 1) % SEQ_MODULO };
+
+  // The frame arrived (its seq and time count), but its content must fit what HELLO announced.
+  const loops = next.hello?.loops;
+  if (loops !== undefined) {
+    if (frame.type === 'EDGE' && frame.loop > loops) {
+      const step = dropped(next, 'range', `EDGE loop ${frame.loop} is past the ${loops} loops the decoder announced`);
+      return { session: step.session, events: [...events, ...step.events] };
+    }
+    if (frame.type === 'TICK' && frame.bands.length !== loops) {
+      const step = dropped(next, 'range', `TICK has ${frame.bands.length} bands but the decoder announced ${loops} loops`);
+      return { session: step.session, events: [...events, ...step.events] };
+    }
+  }
+
+  next = { ...next, counters: { ...next.counters, frames: next.counters.frames + 1 } };
+  switch (frame.type) {
+    case 'EDGE':
+      events.push({ kind: 'edge', input: frame.loop, band: frame.band, decoderUs });
+      break;
+    case 'TICK':
+      events.push({ kind: 'tick', bands: frame.bands, decoderUs });
+      break;
+    case 'FAULT':
+      events.push({ kind: 'fault', code: frame.code, decoderUs });
+      break;
+  }
+  return { session: next, events };
+}
+
+/** Unwraps a raw 32-bit time against the session's anchor; the result is in `lastDecoderUs`. */
+function advanceClock(session: DecoderSession, raw: number): DecoderSession {
+  if (session.lastRawTime === null || session.lastDecoderUs === null) {
+    const start = session.baseUs + raw;
+    // Never behind what we already handed out (a HELLO re-bases on lastDecoderUs, so this holds).
+    const decoderUs = Math.max(start, session.lastDecoderUs ?? start);
+    return { ...session, lastRawTime: raw, lastDecoderUs: decoderUs };
+  }
+  const forward = (raw - session.lastRawTime + TIME_MODULO) % TIME_MODULO;
+  if (forward < HALF_WRAP) {
+    // Frames come at least every 250 ms, so a forward step under half the wrap (35 min) is real time.
+    return { ...session, lastRawTime: raw, lastDecoderUs: session.lastDecoderUs + forward };
+  }
+  const back = TIME_MODULO - forward;
+  if (back <= LATE_FRAME_SLACK_US) {
+    // Stamped a little before the previous frame: keep time monotonic and the anchor where it was.
+    return { ...session, counters: { ...session.counters, lateFrames: session.counters.lateFrames + 1 } };
+  }
+  // The clock started again without a HELLO: re-base like a HELLO would, forget the seq expectation.
+  return {
+    ...session,
+    expectedSeq: null,
+    baseUs: session.lastDecoderUs,
+    lastRawTime: raw,
+    lastDecoderUs: session.lastDecoderUs + raw,
+    counters: { ...session.counters, silentRestarts: session.counters.silentRestarts + 1 },
+  };
+}

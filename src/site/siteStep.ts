@@ -1,0 +1,165 @@
+import { initialLoopClassifier, stepLoop, takeQuality } from '../classify/index.js';
+import type { LoopInput } from '../classify/loopTypes.js';
+import { initialDecoderSession, stepDecoderSession } from '../protocol/decoderSession.js';
+import type { DecoderRuntime, SiteEffect, SiteInput, SiteLoop, SiteQuality, SiteState } from './siteTypes.js';
+
+/**
+ * The whole site as one pure step: decoder sessions and per-loop classifiers together.
+ * Lines in, effects out, host time passed in. Decoder times are placed on the host clock by
+ * anchoring each decoder's latest frame to the host time it arrived; classification itself runs
+ * only on decoder time, so replaying stored lines faster than real time gives the same states.
+ */
+export interface SiteDefinition {
+  loops: readonly SiteLoop[];
+  decoders: ReadonlyArray<{ id: string; silenceMs: number }>;
+}
+
+export interface SiteIndex {
+  definition: SiteDefinition;
+  loopsByDecoder: Map<string, SiteLoop[]>;
+  loopByInput: Map<string, SiteLoop>;
+  silenceMs: Map<string, number>;
+}
+
+export function indexSite(definition: SiteDefinition): SiteIndex {
+  const loopsByDecoder = new Map<string, SiteLoop[]>();
+  const loopByInput = new Map<string, SiteLoop>();
+  for (const loop of definition.loops) {
+    const list = loopsByDecoder.get(loop.decoderId) ?? [];
+    list.push(loop);
+    loopsByDecoder.set(loop.decoderId, list);
+    loopByInput.set(`${loop.decoderId}#${loop.input}`, loop);
+  }
+  const silenceMs = new Map(definition.decoders.map((d) => [d.id, d.silenceMs]));
+  return { definition, loopsByDecoder, loopByInput, silenceMs };
+}
+
+export function initialSiteState(definition: SiteDefinition, nowMs: number): SiteState {
+  const decoders: Record<string, DecoderRuntime> = {};
+  for (const decoder of definition.decoders) {
+    decoders[decoder.id] = {
+      id: decoder.id,
+      session: initialDecoderSession(),
+      // Silence is measured from start-up, so a decoder that never speaks goes offline too.
+      lastValidAtMs: nowMs,
+      latestDecoderUs: null,
+      latestHostMs: null,
+      offline: false,
+    };
+  }
+  const loops: SiteState['loops'] = {};
+  for (const loop of definition.loops) loops[loop.id] = initialLoopClassifier();
+  return { decoders, loops };
+}
+
+export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, nowMs: number): { state: SiteState; effects: SiteEffect[] } {
+  const effects: SiteEffect[] = [];
+  const loops = { ...state.loops };
+  const decoders = { ...state.decoders };
+
+  const feedLoops = (decoderId: string, loopInput: (loop: SiteLoop) => LoopInput | null, placeAt: (atUs: number | undefined) => number) => {
+    for (const loop of index.loopsByDecoder.get(decoderId) ?? []) {
+      const li = loopInput(loop);
+      if (li) feedLoop(loop, li, placeAt);
+    }
+  };
+  const feedLoop = (loop: SiteLoop, li: LoopInput, placeAt: (atUs: number | undefined) => number) => {
+    const result = stepLoop(loops[loop.id]!, li, loop.settings);
+    loops[loop.id] = result.state;
+    for (const effect of result.effects) {
+      effects.push({ kind: 'loop', loopId: loop.id, effect, atMs: placeAt('atUs' in effect ? effect.atUs : undefined) });
+    }
+  };
+  const goOffline = (decoder: DecoderRuntime, reason: string): DecoderRuntime => {
+    if (decoder.offline) return decoder;
+    effects.push({ kind: 'decoder-offline', decoderId: decoder.id, atMs: nowMs, reason });
+    feedLoops(decoder.id, () => ({ kind: 'offline' }), () => nowMs);
+    return { ...decoder, offline: true };
+  };
+
+  switch (input.kind) {
+    case 'clock': {
+      for (const decoder of Object.values(decoders)) {
+        const silenceMs = index.silenceMs.get(decoder.id) ?? 2000;
+        if (!decoder.offline && decoder.lastValidAtMs !== null && nowMs - decoder.lastValidAtMs >= silenceMs) {
+          decoders[decoder.id] = goOffline(decoder, `no valid line for ${Math.round((nowMs - decoder.lastValidAtMs) / 100) / 10} s`);
+        }
+      }
+      break;
+    }
+    case 'link-down': {
+      const decoder = decoders[input.decoderId];
+      if (decoder) decoders[input.decoderId] = goOffline(decoder, input.reason);
+      break;
+    }
+    case 'link-up': {
+      const decoder = decoders[input.decoderId];
+      // A new connection is a new session: sequence and clock expectations start afresh.
+      if (decoder) decoders[input.decoderId] = { ...decoder, session: initialDecoderSession(), latestDecoderUs: null, latestHostMs: null };
+      break;
+    }
+    case 'line': {
+      let decoder = decoders[input.decoderId];
+      if (!decoder) break;
+      const stepped = stepDecoderSession(decoder.session, input.line);
+      decoder = { ...decoder, session: stepped.session };
+      for (const event of stepped.events) {
+        if (event.kind === 'dropped') {
+          effects.push({ kind: 'decoder', decoderId: decoder.id, event, atMs: nowMs });
+          continue;
+        }
+        decoder = { ...decoder, lastValidAtMs: nowMs };
+        if ('decoderUs' in event) decoder = { ...decoder, latestDecoderUs: event.decoderUs, latestHostMs: nowMs };
+        const anchorUs = decoder.latestDecoderUs;
+        const placeAt = (atUs: number | undefined) =>
+          atUs === undefined || anchorUs === null ? nowMs : Math.round(nowMs - (anchorUs - atUs) / 1000);
+        if (decoder.offline) {
+          decoder = { ...decoder, offline: false };
+          effects.push({ kind: 'decoder-online', decoderId: decoder.id, atMs: nowMs });
+          feedLoops(decoder.id, () => ({ kind: 'restart' }), () => nowMs);
+        }
+        switch (event.kind) {
+          case 'hello':
+            effects.push({ kind: 'decoder', decoderId: decoder.id, event, atMs: nowMs });
+            feedLoops(decoder.id, () => ({ kind: 'restart' }), () => nowMs);
+            break;
+          case 'edge': {
+            const loop = index.loopByInput.get(`${decoder.id}#${event.input}`);
+            effects.push({ kind: 'edge', decoderId: decoder.id, input: event.input, band: event.band, decoderUs: event.decoderUs, atMs: placeAt(event.decoderUs) });
+            if (loop) feedLoop(loop, { kind: 'band', band: event.band, atUs: event.decoderUs }, placeAt);
+            break;
+          }
+          case 'tick':
+            feedLoops(decoder.id, (loop) => {
+              const band = event.bands[loop.input - 1];
+              return band ? { kind: 'sync', band, atUs: event.decoderUs } : null;
+            }, placeAt);
+            break;
+          case 'lost':
+            effects.push({ kind: 'decoder', decoderId: decoder.id, event, atMs: nowMs });
+            feedLoops(decoder.id, () => ({ kind: 'lost', count: event.count, atUs: event.decoderUs }), placeAt);
+            break;
+          case 'fault':
+            effects.push({ kind: 'decoder', decoderId: decoder.id, event, atMs: placeAt(event.decoderUs) });
+            if (event.code === 'OVERRUN') feedLoops(decoder.id, () => ({ kind: 'lost', count: 1, atUs: event.decoderUs }), placeAt);
+            break;
+        }
+      }
+      decoders[input.decoderId] = decoder;
+      break;
+    }
+  }
+  return { state: { decoders, loops }, effects };
+}
+
+/** Takes every loop's line-quality counters (once a minute) and resets them. */
+export function takeSiteQuality(state: SiteState): { state: SiteState; qualities: SiteQuality[] } {
+  const loops = { ...state.loops };
+  const qualities: SiteQuality[] = [];
+  for (const [loopId, loopState] of Object.entries(state.loops)) {
+    const taken = takeQuality(loopState);
+    loops[loopId] = taken.state;
+    qualities.push({ loopId, quality: taken.quality });
+  }
+  return { state: { ...state, loops }, qualities };
+}

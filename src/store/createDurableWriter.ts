@@ -1,0 +1,224 @@
+import type { Store } from './openStore.js';
+import { storageFailureOf, type StorageFailure } from './storageFailure.js';
+
+/**
+ * Work for the store that must not be lost when the disk fails. `work` runs inside one transaction and
+ * may run again later (after a storage failure rolled it back), so it must only touch the store: compute
+ * everything else before calling commit.
+ */
+export type StoreWork = (store: Store) => void;
+
+export interface CommitOptions {
+  /**
+   * High-rate data (raw edges, line-quality counters) whose oldest batches may be dropped, and counted,
+   * when the in-memory queue is full. State changes, alarms and audit rows are never droppable.
+   */
+  droppable?: boolean;
+}
+
+/** written: committed now. queued: kept in memory until the disk takes it. rejected: not a storage fault; see onRejected. */
+export type CommitOutcome = 'written' | 'queued' | 'rejected';
+export type FlushOutcome = 'idle' | 'written' | 'failing';
+
+export interface DurableWriterStatus {
+  /** The storage failure in progress, or null when writing normally. */
+  failing: StorageFailure | null;
+  failingSinceMs: number | null;
+  pending: number;
+  /** Droppable batches given up since the store started failing (reset on recovery). */
+  droppedBatches: number;
+}
+
+export interface RecoveryInfo {
+  written: number;
+  droppedBatches: number;
+  failedForMs: number;
+}
+
+export interface DurableWriterOptions {
+  store: Store;
+  /** Called once when writing starts failing: the shell raises "storage failing". */
+  onFailing(failure: StorageFailure): void;
+  /** Called once the queue has been written after a failure: the shell clears "storage failing". */
+  onRecovered(info: RecoveryInfo): void;
+  /** Work that failed for a reason retrying cannot fix (a bug, a constraint): dropped and reported here. */
+  onRejected?(label: string, error: unknown): void;
+  /** While failing, a commit also retries the queue when this long has passed since the last attempt. */
+  retryMs?: number;
+  /** Queue bound; beyond it the oldest droppable batch goes first. Never-droppable work is kept regardless. */
+  maxQueued?: number;
+  /** Queued items written per transaction when catching up. */
+  batchSize?: number;
+  now?: () => number;
+}
+
+export interface DurableWriter {
+  commit(label: string, work: StoreWork, options?: CommitOptions): CommitOutcome;
+  /** Retries the queue in order; the shell calls it on a timer every `retryMs`. Never throws. */
+  flush(): FlushOutcome;
+  pending(): number;
+  status(): DurableWriterStatus;
+  readonly retryMs: number;
+}
+
+interface QueuedWork {
+  label: string;
+  work: StoreWork;
+  droppable: boolean;
+}
+
+export function createDurableWriter(options: DurableWriterOptions): DurableWriter {
+  const { store } = options;
+  const retryMs = options.retryMs ?? 5_000;
+  const maxQueued = options.maxQueued ?? 100_000;
+  const batchSize = Math.max(1, options.batchSize ?? 500);
+  const now = options.now ?? Date.now;
+
+  const queue: QueuedWork[] = [];
+  let droppableInQueue = 0;
+  let failing: StorageFailure | null = null;
+  let failingSinceMs: number | null = null;
+  let lastAttemptMs = 0;
+  let droppedBatches = 0;
+  let writtenSinceFailure = 0;
+
+  const reject = (label: string, error: unknown): void => {
+    try {
+      options.onRejected?.(label, error);
+    } catch {
+      // a failing reporter must not turn into a throw at the caller
+    }
+  };
+
+  const enterFailing = (failure: StorageFailure): void => {
+    const first = failing === null;
+    failing = failure;
+    if (!first) return;
+    failingSinceMs = now();
+    writtenSinceFailure = 0;
+    try {
+      options.onFailing(failure);
+    } catch {
+      // see reject
+    }
+  };
+
+  const enqueue = (item: QueuedWork): void => {
+    if (queue.length >= maxQueued && droppableInQueue > 0) {
+      const oldest = queue.findIndex((q) => q.droppable);
+      if (oldest >= 0) {
+        queue.splice(oldest, 1);
+        droppableInQueue -= 1;
+        droppedBatches += 1;
+      }
+    }
+    queue.push(item);
+    if (item.droppable) droppableInQueue += 1;
+  };
+
+  const removeFront = (count: number): void => {
+    for (const item of queue.splice(0, count)) if (item.droppable) droppableInQueue -= 1;
+  };
+
+  /** One item alone: true when it left the queue (written or rejected), false on a storage failure. */
+  const writeOne = (item: QueuedWork): boolean => {
+    try {
+      store.transaction(() => item.work(store));
+      writtenSinceFailure += 1;
+      return true;
+    } catch (error) {
+      const failure = storageFailureOf(error, item.label);
+      if (failure) {
+        enterFailing(failure);
+        return false;
+      }
+      reject(item.label, error);
+      return true;
+    }
+  };
+
+  const flush = (): FlushOutcome => {
+    if (queue.length === 0) return 'idle';
+    lastAttemptMs = now();
+    while (queue.length > 0) {
+      const batch = queue.slice(0, batchSize);
+      try {
+        store.transaction(() => {
+          for (const item of batch) item.work(store);
+        });
+        removeFront(batch.length);
+        writtenSinceFailure += batch.length;
+        continue;
+      } catch (error) {
+        const failure = storageFailureOf(error, batch[0]?.label ?? 'queued work');
+        if (failure) {
+          enterFailing(failure);
+          return 'failing';
+        }
+        // One item in the batch is bad: go one by one so only that one is rejected.
+      }
+      for (const item of batch) {
+        if (!writeOne(item)) return 'failing';
+        removeFront(1);
+      }
+    }
+    if (failing !== null) {
+      const info: RecoveryInfo = {
+        written: writtenSinceFailure,
+        droppedBatches,
+        failedForMs: now() - (failingSinceMs ?? now()),
+      };
+      failing = null;
+      failingSinceMs = null;
+      droppedBatches = 0;
+      try {
+        options.onRecovered(info);
+      } catch {
+        // see reject
+      }
+    }
+    return 'written';
+  };
+
+  return {
+    retryMs,
+    commit(label, work, commitOptions = {}) {
+      const item: QueuedWork = { label, work, droppable: commitOptions.droppable === true };
+      if (queue.length > 0) {
+        // Already failing: keep the order, and try again only when the retry interval has passed.
+        enqueue(item);
+        if (now() - lastAttemptMs >= retryMs) flush();
+        return queue.includes(item) ? 'queued' : 'written';
+      }
+      try {
+        store.transaction(() => work(store));
+        return 'written';
+      } catch (error) {
+        const failure = storageFailureOf(error, label);
+        if (!failure) {
+          reject(label, error);
+          return 'rejected';
+        }
+        enterFailing(failure);
+        lastAttemptMs = now();
+        enqueue(item);
+        return 'queued';
+      }
+    },
+    flush() {
+      try {
+        return flush();
+      } catch (error) {
+        // Only a throwing reporter could get here; keep the promise of never throwing.
+        reject('flush', error);
+        return failing ? 'failing' : 'written';
+      }
+    },
+    pending() {
+      return queue.length;
+    },
+    status() {
+      return { failing, failingSinceMs, pending: queue.length, droppedBatches };
+    },
+  };
+}

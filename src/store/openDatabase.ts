@@ -1,0 +1,143 @@
+import { existsSync, mkdirSync, statSync } from 'node:fs';
+import { dirname } from 'node:path';
+import Database from 'better-sqlite3';
+import { defaultMigrationsDir } from './packageRoot.js';
+import { readMigrations } from './readMigrations.js';
+import { StoreError, describeError } from './storeError.js';
+import { uniqueSiblingPath } from './uniqueSiblingPath.js';
+
+export type SqliteDatabase = Database.Database;
+
+export interface OpenDatabaseOptions {
+  /** Default: the package's migrations/ folder. */
+  migrationsDir?: string;
+  /** How long a writer waits for another connection's lock before SQLITE_BUSY. */
+  busyTimeoutMs?: number;
+  /** Stamped into schema_migrations.applied_at; the shell passes its clock. */
+  now?: () => number;
+}
+
+export interface OpenedDatabase {
+  db: SqliteDatabase;
+  /** The file did not exist (or was empty) before this call. */
+  created: boolean;
+  schemaVersion: number;
+  /** Versions applied by this call, in order. */
+  applied: number[];
+  /** The copy written before migrating a database that already held data; null if none was needed. */
+  backupFile: string | null;
+}
+
+const DEFAULT_BUSY_TIMEOUT_MS = 5_000;
+
+/**
+ * Opens (creating if needed) a pairwatch database and brings its schema up to date.
+ * A database from a newer pairwatch is refused before anything is written to it, so a downgrade
+ * can never damage the data of an upgrade.
+ */
+export function openDatabase(path: string, options: OpenDatabaseOptions = {}): OpenedDatabase {
+  const migrations = readMigrations(options.migrationsDir ?? defaultMigrationsDir());
+  const knownVersion = migrations[migrations.length - 1]?.version ?? 0;
+  const now = options.now ?? Date.now;
+
+  try {
+    mkdirSync(dirname(path), { recursive: true });
+  } catch (error) {
+    throw new StoreError('PW_STORE_OPEN_FAILED', `cannot create the folder for ${path}: ${describeError(error)}`, { cause: error });
+  }
+  const created = !existsSync(path) || statSync(path).size === 0;
+
+  let db: SqliteDatabase;
+  try {
+    db = new Database(path);
+  } catch (error) {
+    throw new StoreError('PW_STORE_OPEN_FAILED', `cannot open ${path}: ${describeError(error)}`, { cause: error });
+  }
+
+  try {
+    db.pragma(`busy_timeout = ${Math.max(0, Math.round(options.busyTimeoutMs ?? DEFAULT_BUSY_TIMEOUT_MS))}`);
+    const current = created ? null : inspectVersion(db, path);
+    if (current !== null && current > knownVersion) {
+      throw new StoreError(
+        'PW_STORE_TOO_NEW',
+        `${path} has schema version ${current}, but this pairwatch only knows up to version ${knownVersion}: ` +
+          'run the newer pairwatch that wrote it, or restore a backup made by this version. The file was not changed.',
+      );
+    }
+
+    // auto_vacuum can only be chosen before the first table exists; retention relies on it to give space back.
+    if (created) db.pragma('auto_vacuum = INCREMENTAL');
+    db.pragma('journal_mode = WAL');
+    // NORMAL in WAL mode: a power cut may lose the last transactions but never corrupts the file.
+    db.pragma('synchronous = NORMAL');
+    db.pragma('foreign_keys = ON');
+    db.exec(
+      'CREATE TABLE IF NOT EXISTS schema_migrations (version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TEXT NOT NULL)',
+    );
+
+    const pending = migrations.filter((m) => m.version > (current ?? 0));
+    let backupFile: string | null = null;
+    const target = pending[pending.length - 1];
+    if (target && current !== null) {
+      backupFile = uniqueSiblingPath(`${path}.pre-${target.version}.bak`);
+      try {
+        db.prepare('VACUUM INTO ?').run(backupFile);
+      } catch (error) {
+        throw new StoreError(
+          'PW_STORE_BACKUP_FAILED',
+          `cannot write the pre-migration backup ${backupFile}; nothing was migrated: ${describeError(error)}`,
+          { cause: error },
+        );
+      }
+    }
+
+    const record = db.prepare('INSERT INTO schema_migrations (version, name, applied_at) VALUES (?, ?, ?)');
+    const applied: number[] = [];
+    for (const migration of pending) {
+      try {
+        db.transaction(() => {
+          db.exec(migration.sql);
+          record.run(migration.version, migration.name, new Date(now()).toISOString());
+        })();
+      } catch (error) {
+        throw new StoreError(
+          'PW_STORE_MIGRATION_FAILED',
+          `migration ${migration.name} failed and was rolled back (schema stays at version ` +
+            `${applied[applied.length - 1] ?? current ?? 0}): ${describeError(error)}`,
+          { cause: error },
+        );
+      }
+      applied.push(migration.version);
+    }
+    return { db, created, schemaVersion: Math.max(current ?? 0, ...applied), applied, backupFile };
+  } catch (error) {
+    db.close();
+    if (error instanceof StoreError) throw error;
+    throw new StoreError('PW_STORE_OPEN_FAILED', `cannot open ${path}: ${describeError(error)}`, { cause: error });
+  }
+}
+
+/** The recorded schema version, or null for a file with no tables yet. Reads only. */
+function inspectVersion(db: SqliteDatabase, path: string): number | null {
+  let tables: string[];
+  try {
+    tables = (db.prepare("SELECT name FROM sqlite_master WHERE type = 'table'").all() as Array<{ name: string }>).map(
+      (row) => row.name,
+    );
+  } catch (error) {
+    const code = (error as { code?: unknown }).code;
+    if (code === 'SQLITE_NOTADB') {
+      throw new StoreError('PW_STORE_NOT_PAIRWATCH', `${path} is not a SQLite database`, { cause: error });
+    }
+    throw error;
+  }
+  if (!tables.includes('schema_migrations')) {
+    if (tables.length === 0) return null;
+    throw new StoreError(
+      'PW_STORE_NOT_PAIRWATCH',
+      `${path} is a SQLite database but not a pairwatch one (no schema_migrations table); it was left alone`,
+    );
+  }
+  const row = db.prepare('SELECT max(version) AS version FROM schema_migrations').get() as { version: number | null };
+  return row.version;
+}

@@ -1,0 +1,100 @@
+import { closeSync, mkdirSync, openSync, readFileSync, unlinkSync, writeSync } from 'node:fs';
+import { dirname } from 'node:path';
+import { StoreError, describeError } from './storeError.js';
+
+/**
+ * `<db>.lock` holds the pid of the process that owns the database (the daemon). Restore refuses while
+ * a live process holds it; a lock left by a process that died is taken over, so a crash never leaves
+ * the site unable to start.
+ */
+export interface StoreLock {
+  readonly file: string;
+  release(): void;
+}
+
+export interface LockHolder {
+  pid: number;
+  alive: boolean;
+}
+
+export function lockFileFor(dbPath: string): string {
+  return `${dbPath}.lock`;
+}
+
+export function readLockHolder(dbPath: string): LockHolder | null {
+  let text: string;
+  try {
+    text = readFileSync(lockFileFor(dbPath), 'utf8');
+  } catch {
+    return null;
+  }
+  const pid = Number.parseInt(text.split('\n')[0] ?? '', 10);
+  if (!Number.isInteger(pid) || pid <= 0) return { pid: 0, alive: false };
+  return { pid, alive: isProcessAlive(pid) };
+}
+
+export function acquireStoreLock(dbPath: string): StoreLock {
+  const file = lockFileFor(dbPath);
+  try {
+    mkdirSync(dirname(dbPath), { recursive: true });
+  } catch (error) {
+    throw new StoreError('PW_STORE_OPEN_FAILED', `cannot create the folder for ${dbPath}: ${describeError(error)}`, { cause: error });
+  }
+  for (let attempt = 0; attempt < 2; attempt++) {
+    let fd: number;
+    try {
+      fd = openSync(file, 'wx');
+    } catch (error) {
+      if ((error as NodeJS.ErrnoException).code !== 'EEXIST') {
+        throw new StoreError('PW_STORE_OPEN_FAILED', `cannot create the lock file ${file}: ${describeError(error)}`, {
+          cause: error,
+        });
+      }
+      const holder = readLockHolder(dbPath);
+      if (holder?.alive) {
+        throw new StoreError(
+          'PW_STORE_LOCKED',
+          `${dbPath} is in use by process ${holder.pid} (lock file ${file}); stop the pairwatch daemon first`,
+        );
+      }
+      try {
+        unlinkSync(file); // stale: its process is gone
+      } catch {
+        // someone else removed it first; the next attempt decides
+      }
+      continue;
+    }
+    try {
+      writeSync(fd, `${process.pid}\n`);
+    } finally {
+      closeSync(fd);
+    }
+    let released = false;
+    return {
+      file,
+      release() {
+        if (released) return;
+        released = true;
+        // Only remove our own lock: if it was taken over meanwhile, it is no longer ours to remove.
+        if (readLockHolder(dbPath)?.pid === process.pid) {
+          try {
+            unlinkSync(file);
+          } catch {
+            // already gone
+          }
+        }
+      },
+    };
+  }
+  throw new StoreError('PW_STORE_LOCKED', `${dbPath}: another process took the lock file ${file} at the same moment`);
+}
+
+function isProcessAlive(pid: number): boolean {
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch (error) {
+    // EPERM: the process exists but belongs to another user.
+    return (error as NodeJS.ErrnoException).code === 'EPERM';
+  }
+}

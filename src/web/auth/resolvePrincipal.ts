@@ -1,0 +1,43 @@
+import type BetterSqlite3 from 'better-sqlite3';
+import { findLiveApiTokenByHash } from '../../store/apiTokenRepo.js';
+import { findWebSession } from '../../store/webSessionRepo.js';
+import type { Principal } from './principal.js';
+import { sha256Hex } from './secretToken.js';
+
+export const SESSION_COOKIE = 'pw_session';
+
+export type PrincipalLookup =
+  | { kind: 'none' }
+  | { kind: 'found'; principal: Principal }
+  /** Credentials were sent but are no good: answered with 401 rather than treated as anonymous. */
+  | { kind: 'bad-token' };
+
+/**
+ * A Bearer header wins over a cookie: a script that sends a token means that token. A stale session
+ * cookie is the same as none (the browser is sent to the sign-in page).
+ */
+export function resolvePrincipal(
+  db: BetterSqlite3.Database,
+  authorization: string | undefined,
+  sessionCookie: string | undefined,
+  now: number,
+): PrincipalLookup {
+  if (authorization !== undefined && authorization.trim() !== '') {
+    const match = /^Bearer\s+(\S+)\s*$/i.exec(authorization);
+    if (!match) return { kind: 'bad-token' };
+    const token = findLiveApiTokenByHash(db, sha256Hex(match[1]!));
+    if (!token) return { kind: 'bad-token' };
+    return { kind: 'found', principal: { kind: 'token', name: token.name, role: token.role, csrfToken: null, sessionIdHash: null } };
+  }
+  if (sessionCookie) {
+    const idHash = sha256Hex(sessionCookie);
+    const session = findWebSession(db, idHash, now);
+    if (session) {
+      return {
+        kind: 'found',
+        principal: { kind: 'session', name: session.userName, role: session.role, csrfToken: session.csrfToken, sessionIdHash: idHash },
+      };
+    }
+  }
+  return { kind: 'none' };
+}

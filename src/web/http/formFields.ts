@@ -1,0 +1,21 @@
+import { badInput } from '../webErrors.js';
+
+/** A urlencoded form body as the form parser gives it; anything else counts as an empty form. */
+export function formBody(body: unknown): Record<string, unknown> {
+  return body !== null && typeof body === 'object' && !Array.isArray(body) ? (body as Record<string, unknown>) : {};
+}
+
+/** One text field of a form: undefined when absent, a 400 naming it when sent twice or too long. */
+export function formField(body: Record<string, unknown>, name: string, maxLength = 1000): string | undefined {
+  const value = body[name];
+  if (value === undefined) return undefined;
+  if (typeof value !== 'string') throw badInput(name, 'must be given only once');
+  if (value.length > maxLength) throw badInput(name, `must be at most ${maxLength} characters`);
+  return value;
+}
+
+export function requiredFormField(body: Record<string, unknown>, name: string, maxLength = 1000): string {
+  const value = formField(body, name, maxLength)?.trim();
+  if (!value) throw badInput(name, 'is required');
+  return value;
+}

@@ -1,0 +1,79 @@
+import { describe, expect, it } from 'vitest';
+import { intervalFigures } from '../../src/classify/lineQuality.js';
+import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/loopSettings.js';
+import type { LoopSettings } from '../../src/classify/loopSettings.js';
+import { takeQuality } from '../../src/classify/takeQuality.js';
+import { changes, classify, edge, heartbeat, pulsesAt, us, withTicks } from './loopScript.js';
+
+/* Check values from outside the code: facts of the trade, a datasheet formula, a code requirement. */
+
+describe('reference values', () => {
+  it('a 1 ms pulse every 500 ms keeps a loop healthy', () => {
+    // Common practice for supervised loops: a short heartbeat pulse at a fixed period; 1 ms every
+    // 500 ms is this design's nominal heartbeat (issue 2). Ten minutes of it, no tolerance used up.
+    const minutes = 10;
+    const count = (minutes * 60_000) / 500;
+    const { state, effects } = classify(withTicks([edge('N', 0), ...heartbeat(100, count, 500, 1)], 100 + count * 500));
+    expect(changes(effects)).toEqual([['healthy', us(1101)]]);
+    const quality = takeQuality(state).quality;
+    expect(quality).toMatchObject({ pulses: count, intervalCount: count - 1, outOfTolerance: 0, glitches: 0, longPulses: 0 });
+    expect(intervalFigures(quality).meanMs).toBeCloseTo(500, 9);
+    expect(intervalFigures(quality).jitterMs).toBeCloseTo(0, 6);
+  });
+
+  describe('against a retriggerable one-shot used as a hardware heartbeat watchdog', () => {
+    // Precision retriggerable monostable multivibrator: output pulse width PW_OUT = R·C (PW in seconds,
+    // R in ohms, C in farads). Source: the datasheet formula of the CMOS dual precision monostable
+    // family (Features section); on retriggering, such a datasheet says the output stays high until
+    // time T after the last valid retrigger — i.e. it drops R·C after the last pulse.
+    const R = 330e3; // Ω
+    const C = 3.3e-6; // F
+    const oneShotS = R * C;
+    const periodMs = 500; // the design's nominal heartbeat period (issue 2)
+    const defaultTripMs = 1500; // the specified default trip window: 3 periods (issue 2)
+
+    it('has a window of R·C ≈ 1.089 s, and both it and the default trip window exceed two periods', () => {
+      expect(oneShotS).toBeCloseTo(1.089, 9);
+      // Both outlast one lost pulse (a 1000 ms gap), so one lost pulse never trips either of them.
+      expect(oneShotS * 1000).toBeGreaterThan(2 * periodMs);
+      expect(defaultTripMs).toBeGreaterThan(2 * periodMs);
+      // The default waits a little longer than that hardware would: 3 periods against about 2.2.
+      expect(defaultTripMs / (oneShotS * 1000)).toBeCloseTo(1500 / 1089, 9);
+      expect(DEFAULT_LOOP_SETTINGS.tripMs).toBe(defaultTripMs);
+    });
+
+    const settings: LoopSettings = { ...DEFAULT_LOOP_SETTINGS, tripMs: oneShotS * 1000 };
+
+    it('with trip_ms = R·C, trips exactly R·C after the last pulse, as the one-shot would drop', () => {
+      const lastPulseMs = 2100;
+      const { effects } = classify(withTicks([edge('N', 0), ...heartbeat(100, 5)], 5000), settings);
+      const trip = effects.find((e) => e.kind === 'state' && e.to === 'tripped');
+      expect(trip).toBeDefined();
+      // Within half a microsecond, the decoder's timestamp resolution being 1 µs.
+      expect(Math.abs(trip!.atUs - (us(lastPulseMs) + oneShotS * 1e6))).toBeLessThanOrEqual(0.5);
+    });
+
+    it('with trip_ms = R·C, one lost pulse still does not trip', () => {
+      const starts = Array.from({ length: 10 }, (_, i) => 100 + i * periodMs).filter((_, i) => i !== 4);
+      const { effects } = classify(withTicks([edge('N', 0), ...pulsesAt(starts)], 4700), settings);
+      expect(changes(effects)).toEqual([['healthy', us(1101)]]);
+    });
+  });
+
+  it('reports open and short at 200 ms, far inside the 200 s allowed for a trouble signal', () => {
+    // NFPA 72 (National Fire Alarm and Signaling Code) requires a trouble condition to be indicated
+    // within 200 seconds. From memory of NFPA 72's 200-second trouble requirement, not checked
+    // against the current edition. pairwatch is not a fire alarm system; the figure is a yardstick.
+    const troubleLimitS = 200;
+    const healthyHead = [edge('N', 0), ...heartbeat(100, 3)];
+    const faultStartMs = 1200;
+    for (const band of ['O', 'H'] as const) {
+      const { effects } = classify(withTicks([...healthyHead, edge(band, faultStartMs)], 2000));
+      const fault = effects.find((e) => e.kind === 'state' && e.to === (band === 'O' ? 'open' : 'shorted'));
+      expect(fault).toBeDefined();
+      const delayS = (fault!.atUs - us(faultStartMs)) / 1e6;
+      expect(delayS).toBeCloseTo(0.2, 9); // the specified 200 ms window (issue 2)
+      expect(delayS).toBeLessThan(troubleLimitS / 100); // a hundredth of the limit, and more
+    }
+  });
+});

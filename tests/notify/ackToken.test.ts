@@ -1,0 +1,116 @@
+import { afterEach, describe, expect, it } from 'vitest';
+import { computeAckMac, newAckTokenId, signAckToken, verifyAckToken } from '../../src/notify/ackToken.js';
+import { checkAckLink, redeemAckLink } from '../../src/notify/redeemAckToken.js';
+import { ackTokenUsedAt, markAckTokenUsed } from '../../src/store/ackTokenRepo.js';
+import { openTestDb, type TestDb } from './helpers/notifyDb.js';
+
+const secret = Buffer.alloc(32, 7);
+const now = Date.parse('2026-12-01T06:00:00.000Z');
+const week = 7 * 86_400_000;
+
+describe('HMAC-SHA256 underneath the tokens', () => {
+  // RFC 4231 §4.2 and §4.3, test cases 1 and 2, HMAC-SHA-256 (values from the RFC, copied from memory of its text).
+  it('matches RFC 4231 test case 1', () => {
+    const mac = computeAckMac('Hi There', Buffer.alloc(20, 0x0b));
+    expect(mac.toString('hex')).toBe('b0344c61d8db38535ca8afceaf0bf12b881dc200c9833da726e9376c2e32cff7');
+  });
+  it('matches RFC 4231 test case 2', () => {
+    const mac = computeAckMac('what do ya want for nothing?', Buffer.from('Jefe'));
+    expect(mac.toString('hex')).toBe('5bdcc146bf60754e6a042426089575c75a003f089d2739839dec58b964ec3843');
+  });
+});
+
+describe('signAckToken / verifyAckToken', () => {
+  const token = signAckToken({ alarmId: 42, expiresAt: now + week, tokenId: 'tok_0123456789abcdef' }, secret);
+
+  it('round-trips the claims', () => {
+    expect(verifyAckToken(token, secret, now)).toEqual({ ok: true, alarmId: 42, tokenId: 'tok_0123456789abcdef', expiresAt: now + week });
+  });
+
+  it('uses only URL-safe characters', () => {
+    // RFC 3986 §2.3: unreserved = ALPHA / DIGIT / "-" / "." / "_" / "~" — needs no percent-encoding in a path.
+    expect(token).toMatch(/^[A-Za-z0-9\-._~]+$/);
+    expect(encodeURIComponent(token)).toBe(token);
+  });
+
+  it('refuses a token signed with another secret as forged', () => {
+    const other = signAckToken({ alarmId: 42, expiresAt: now + week, tokenId: 'tok_0123456789abcdef' }, Buffer.alloc(32, 8));
+    expect(verifyAckToken(other, secret, now)).toEqual({ ok: false, reason: 'forged' });
+  });
+
+  it('refuses a token whose alarm id was changed as forged', () => {
+    const tampered = token.replace('a1.42.', 'a1.43.');
+    expect(tampered).not.toBe(token);
+    expect(verifyAckToken(tampered, secret, now)).toEqual({ ok: false, reason: 'forged' });
+  });
+
+  it('refuses a token whose expiry was pushed out as forged', () => {
+    const tampered = token.replace(`.${now + week}.`, `.${now + 2 * week}.`);
+    expect(verifyAckToken(tampered, secret, now)).toEqual({ ok: false, reason: 'forged' });
+  });
+
+  it('refuses a token with one MAC character changed as forged', () => {
+    const last = token.at(-2) === 'A' ? 'B' : 'A';
+    const tampered = `${token.slice(0, -2)}${last}${token.at(-1)}`;
+    expect(verifyAckToken(tampered, secret, now)).toEqual({ ok: false, reason: 'forged' });
+  });
+
+  it('refuses an expired token, at and after the expiry instant', () => {
+    expect(verifyAckToken(token, secret, now + week - 1).ok).toBe(true);
+    expect(verifyAckToken(token, secret, now + week)).toEqual({ ok: false, reason: 'expired' });
+    expect(verifyAckToken(token, secret, now + 2 * week)).toEqual({ ok: false, reason: 'expired' });
+  });
+
+  it.each(['', 'abc', 'a1.42', `${token}.x`, token.replace('a1.', 'a2.'), token.replace('a1.42', 'a1.0'), token.replace('a1.42', 'a1.4x'), 'a1.1.2.short.mac', 'x'.repeat(500)])(
+    'refuses %j as malformed',
+    (bad) => {
+      expect(verifyAckToken(bad, secret, now)).toEqual({ ok: false, reason: 'malformed' });
+    },
+  );
+
+  it('makes distinct, URL-safe single-use ids', () => {
+    const ids = new Set(Array.from({ length: 100 }, () => newAckTokenId()));
+    expect(ids.size).toBe(100);
+    for (const id of ids) expect(id).toMatch(/^[A-Za-z0-9_-]{22}$/);
+  });
+});
+
+describe('single use and alarm binding (real SQLite)', () => {
+  let t: TestDb;
+  afterEach(() => t?.cleanup());
+
+  it('markAckTokenUsed is true once, then false', () => {
+    t = openTestDb();
+    expect(markAckTokenUsed(t.db, 'tok_aaaaaaaaaaaa', now)).toBe(true);
+    expect(markAckTokenUsed(t.db, 'tok_aaaaaaaaaaaa', now + 1000)).toBe(false);
+    expect(ackTokenUsedAt(t.db, 'tok_aaaaaaaaaaaa')).toBe(now);
+    expect(ackTokenUsedAt(t.db, 'tok_bbbbbbbbbbbb')).toBeNull();
+  });
+
+  it('a reused link is refused; checking (GET) never spends it', () => {
+    t = openTestDb();
+    const token = signAckToken({ alarmId: 5, expiresAt: now + week, tokenId: newAckTokenId() }, secret);
+    expect(checkAckLink(t.db, token, secret, now, 5).ok).toBe(true);
+    expect(checkAckLink(t.db, token, secret, now, 5).ok).toBe(true);
+    expect(redeemAckLink(t.db, token, secret, now, 5).ok).toBe(true);
+    expect(redeemAckLink(t.db, token, secret, now, 5)).toEqual({ ok: false, reason: 'used' });
+    expect(checkAckLink(t.db, token, secret, now, 5)).toEqual({ ok: false, reason: 'used' });
+  });
+
+  it("a link for one alarm is refused for another, and is not spent by the attempt", () => {
+    t = openTestDb();
+    const token = signAckToken({ alarmId: 5, expiresAt: now + week, tokenId: newAckTokenId() }, secret);
+    expect(redeemAckLink(t.db, token, secret, now, 6)).toEqual({ ok: false, reason: 'other-alarm' });
+    expect(redeemAckLink(t.db, token, secret, now, 5).ok).toBe(true);
+  });
+
+  it('forged and expired links are refused before anything is spent', () => {
+    t = openTestDb();
+    const tokenId = newAckTokenId();
+    const expired = signAckToken({ alarmId: 5, expiresAt: now - 1, tokenId }, secret);
+    expect(redeemAckLink(t.db, expired, secret, now, 5)).toEqual({ ok: false, reason: 'expired' });
+    const forged = signAckToken({ alarmId: 5, expiresAt: now + week, tokenId }, Buffer.alloc(32, 1));
+    expect(redeemAckLink(t.db, forged, secret, now, 5)).toEqual({ ok: false, reason: 'forged' });
+    expect(ackTokenUsedAt(t.db, tokenId)).toBeNull();
+  });
+});

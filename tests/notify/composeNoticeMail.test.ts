@@ -1,0 +1,170 @@
+import { describe, expect, it } from 'vitest';
+import { CONDITION_TEXT } from '../../src/model/condition.js';
+import { verifyAckToken } from '../../src/notify/ackToken.js';
+import { composeNoticeMail, type NoticeComposeContext } from '../../src/notify/composeNoticeMail.js';
+import type { Digest, NoticeAlarm, PendingNotice } from '../../src/notify/noticeTypes.js';
+import { secret, settings } from './helpers/fixtures.js';
+
+const t0 = Date.parse('2026-12-01T03:00:00.000Z');
+
+function alarm(id: number, partial: Partial<NoticeAlarm>): NoticeAlarm {
+  return {
+    id,
+    source: partial.loopId ?? 'system',
+    loopId: null,
+    condition: 'tripped',
+    priority: 'alarm',
+    state: 'unacknowledged',
+    active: true,
+    raisedAt: t0,
+    clearedAt: null,
+    ackedAt: null,
+    ackedBy: null,
+    note: null,
+    shelvedUntil: null,
+    shelveReason: null,
+    threadMessageId: null,
+    ...partial,
+  };
+}
+
+let noticeId = 0;
+function notice(alarmId: number, kind: PendingNotice['kind'] = 'raised', extra: Partial<PendingNotice> = {}): PendingNotice {
+  return { id: ++noticeId, contactId: 'office', alarmId, kind, createdAt: t0, dueAt: t0 + 10_000, actor: null, note: null, ...extra };
+}
+
+// One settings object for the file, so Message-IDs keep counting up between mails.
+const shared = settings();
+
+function ctx(alarms: NoticeAlarm[], recipients: Record<number, string[]> = {}, now = t0 + 10_000): NoticeComposeContext {
+  return {
+    ...shared,
+    now,
+    alarms: new Map(alarms.map((a) => [a.id, a])),
+    recipients: new Map(Object.entries(recipients).map(([k, v]) => [Number(k), v])),
+  };
+}
+
+const digest = (notices: PendingNotice[], contactId = 'office'): Digest => ({ contactId, dueAt: t0 + 10_000, notices });
+
+describe('composeNoticeMail: subject', () => {
+  it('one alarm: priority, site, loop and condition', () => {
+    const mail = composeNoticeMail(digest([notice(1)]), ctx([alarm(1, { loopId: 'well' })]));
+    expect(mail.subject).toBe('[ALARM] Ridgeway Farm: Well pit — tripped');
+    expect(mail.priority).toBe('alarm');
+  });
+
+  it('several conditions: count first, highest priority wins the tag, alarms listed first', () => {
+    const alarms = [
+      alarm(1, { loopId: 'lambing', condition: 'open', priority: 'trouble' }),
+      alarm(2, { loopId: 'well', raisedAt: t0 + 2_000 }),
+      alarm(3, { source: 'system', condition: 'mail-failing', priority: 'system' }),
+    ];
+    const mail = composeNoticeMail(digest([notice(1), notice(2), notice(3)]), ctx(alarms));
+    expect(mail.subject).toBe('[ALARM] Ridgeway Farm: 3 conditions — Well pit tripped, Lambing shed open circuit, Monitor mail failing');
+  });
+
+  it('trouble only and system only carry their own tags', () => {
+    expect(composeNoticeMail(digest([notice(1)]), ctx([alarm(1, { loopId: 'lambing', condition: 'shorted', priority: 'trouble' })])).subject).toMatch(/^\[TROUBLE\] Ridgeway Farm: /);
+    expect(composeNoticeMail(digest([notice(1)]), ctx([alarm(1, { condition: 'storage-failing', priority: 'system' })])).subject).toBe(
+      '[SYSTEM] Ridgeway Farm: Monitor — storage failing',
+    );
+  });
+
+  it('a decoder going offline with 8 loops is one mail naming all 8, subject kept short', () => {
+    const alarms = Array.from({ length: 8 }, (_, i) => alarm(i + 1, { loopId: `bay${i + 1}`, condition: 'offline', priority: 'trouble', raisedAt: t0 + i }));
+    const mail = composeNoticeMail(digest(alarms.map((a) => notice(a.id))), ctx(alarms));
+    expect(mail.subject.startsWith('[TROUBLE] Ridgeway Farm: 8 conditions — Hay bay 1 decoder offline')).toBe(true);
+    expect(mail.subject.length).toBeLessThanOrEqual(160);
+    expect(mail.subject).toMatch(/and \d more$/);
+    for (let i = 1; i <= 8; i++) expect(mail.text).toContain(`Hay bay ${i} — decoder offline`);
+    expect(mail.alarmIds).toEqual([1, 2, 3, 4, 5, 6, 7, 8]);
+  });
+});
+
+describe('composeNoticeMail: body', () => {
+  it('names the loop, where it is, the plain words, what to check, since when (site zone and UTC) and who else was told', () => {
+    const mail = composeNoticeMail(digest([notice(1)]), ctx([alarm(1, { loopId: 'well' })], { 1: ['office', 'oncall'] }));
+    expect(mail.text).toContain('Pump house, north paddock');
+    expect(mail.text).toContain(CONDITION_TEXT.tripped.words);
+    expect(mail.text).toContain(CONDITION_TEXT.tripped.check);
+    // 03:00 UTC on 1 Dec 2026 is 03:00 GMT in London (no summer time in December).
+    expect(mail.text).toContain('Tue 1 Dec 2026, 03:00:00 GMT (2026-12-01 03:00:00 UTC)');
+    expect(mail.text).toMatch(/Also told: +On-call phone/);
+    expect(mail.text).not.toMatch(/Also told: +.*Farm office/);
+  });
+
+  it('keeps alarm, trouble and system in separate sections, in that order', () => {
+    const alarms = [
+      alarm(1, { condition: 'mail-failing', priority: 'system' }),
+      alarm(2, { loopId: 'lambing', condition: 'open', priority: 'trouble' }),
+      alarm(3, { loopId: 'well' }),
+    ];
+    const { text, html } = composeNoticeMail(digest([notice(1), notice(2), notice(3)]), ctx(alarms));
+    const order = ['ALARM (1)', 'TROUBLE (1)', 'SYSTEM TROUBLE (1)'].map((h) => text.indexOf(`${h}\n`));
+    expect(order.every((i) => i >= 0)).toBe(true);
+    expect([...order].sort((a, b) => a - b)).toEqual(order);
+    expect(html.indexOf('ALARM (1)')).toBeLessThan(html.indexOf('TROUBLE (1)'));
+  });
+
+  it('an unacknowledged alarm carries a working acknowledge link for that alarm', () => {
+    const mail = composeNoticeMail(digest([notice(7)]), ctx([alarm(7, { loopId: 'well' })]));
+    const link = /https:\/\/monitor\.ridgeway\.example\/ack\/(\S+)/.exec(mail.text);
+    expect(link).not.toBeNull();
+    const verdict = verifyAckToken(link![1]!, secret, t0 + 10_000);
+    expect(verdict).toMatchObject({ ok: true, alarmId: 7 });
+    expect(mail.html).toContain(`href="https://monitor.ridgeway.example/ack/${link![1]}"`);
+  });
+
+  it('an acknowledged alarm says who acknowledged and their note, and has no link', () => {
+    const acked = alarm(1, { loopId: 'well', state: 'acknowledged', ackedAt: t0 + 60_000, ackedBy: 'ann', note: 'Heater reset' });
+    const mail = composeNoticeMail(digest([notice(1, 'acknowledged', { actor: 'ann', note: 'Heater reset' })]), ctx([acked], {}, t0 + 70_000));
+    expect(mail.subject).toBe('[ALARM] Ridgeway Farm: Well pit — tripped, acknowledged by ann');
+    expect(mail.text).toMatch(/Acknowledged: +by ann at /);
+    expect(mail.text).toMatch(/Their note: +Heater reset/);
+    expect(mail.text).not.toContain('/ack/');
+  });
+
+  it('a clear before anyone acknowledged still offers the link (returned-unacknowledged)', () => {
+    const back = alarm(1, { loopId: 'well', state: 'returned-unacknowledged', active: false, clearedAt: t0 + 5 * 60_000 });
+    const mail = composeNoticeMail(digest([notice(1, 'cleared')]), ctx([back], {}, t0 + 6 * 60_000));
+    expect(mail.subject).toBe('[ALARM] Ridgeway Farm: Well pit — back to normal, not yet acknowledged');
+    expect(mail.text).toContain('/ack/');
+  });
+
+  it('escapes every user-supplied string in the HTML part', () => {
+    const acked = alarm(1, { loopId: 'tack', state: 'acknowledged', ackedAt: t0, ackedBy: '<b>bob</b>', note: '<script>alert(1)</script> & "quotes"' });
+    const mail = composeNoticeMail(
+      digest([notice(1, 'acknowledged', { actor: '<b>bob</b>', note: '<script>alert(1)</script> & "quotes"' })]),
+      { ...ctx([acked], { 1: ['office', 'vet'] }), siteName: 'Ridge & <Co>' },
+    );
+    expect(mail.html).not.toContain('<script>');
+    expect(mail.html).not.toContain('<b>bob</b>');
+    expect(mail.html).not.toContain('Tack room <east>');
+    expect(mail.html).toContain('Tack room &lt;east&gt;');
+    expect(mail.html).toContain('&lt;script&gt;alert(1)&lt;/script&gt; &amp; &quot;quotes&quot;');
+    expect(mail.html).toContain('Neighbour &quot;Sam&quot;');
+    expect(mail.html).toContain('Ridge &amp; &lt;Co&gt;');
+  });
+});
+
+describe('composeNoticeMail: headers', () => {
+  it('marks the mail as auto-generated (RFC 3834 §5)', () => {
+    const mail = composeNoticeMail(digest([notice(1)]), ctx([alarm(1, { loopId: 'well' })]));
+    expect(mail.headers['Auto-Submitted']).toBe('auto-generated');
+  });
+
+  it("the first mail of an alarm has no parent; later ones reply to the alarm's thread (RFC 5322 §3.6.4)", () => {
+    const first = composeNoticeMail(digest([notice(1)]), ctx([alarm(1, { loopId: 'well' })]));
+    expect(first.headers['In-Reply-To']).toBeUndefined();
+    const repeat = composeNoticeMail(digest([notice(1, 'repeat')]), ctx([alarm(1, { loopId: 'well', threadMessageId: first.messageId })]));
+    expect(repeat.headers['In-Reply-To']).toBe(first.messageId);
+    expect(repeat.headers['References']).toBe(first.messageId);
+    expect(repeat.messageId).not.toBe(first.messageId);
+  });
+
+  it('addresses the contact with a quoted display name', () => {
+    const mail = composeNoticeMail(digest([notice(1)], 'vet'), ctx([alarm(1, { loopId: 'well' })]));
+    expect(mail.to).toEqual(['"Neighbour \\"Sam\\"" <sam@ridgeway.example>']);
+  });
+});

@@ -1,0 +1,61 @@
+import { afterEach, describe, expect, it } from 'vitest';
+import { flushDigests } from '../../src/notify/flushDigests.js';
+import { queueNotices } from '../../src/notify/noticeQueue.js';
+import { dueOutbox } from '../../src/store/outboxRepo.js';
+import { listPendingNotices } from '../../src/store/pendingNoticeRepo.js';
+import { insertAlarm, openTestDb, type TestDb } from './helpers/notifyDb.js';
+import { settings } from './helpers/fixtures.js';
+
+const t0 = Date.parse('2026-12-01T03:00:00.000Z');
+
+describe('flushDigests (real SQLite)', () => {
+  let t: TestDb;
+  afterEach(() => t?.cleanup());
+
+  it('moves due notices into the outbox in one step and leaves the rest waiting', () => {
+    t = openTestDb();
+    const a = insertAlarm(t.db, { loopId: 'well', condition: 'tripped', priority: 'alarm', raisedAt: t0 });
+    queueNotices(t.db, { kind: 'notify', alarmId: a, contactIds: ['office'], notice: 'raised', actor: null, note: null }, t0, 10_000);
+    queueNotices(t.db, { kind: 'notify', alarmId: a, contactIds: ['oncall'], notice: 'escalated', actor: null, note: null }, t0 + 5_000, 10_000);
+    expect(flushDigests(t.db, t0 + 9_999, settings()).messageIds).toEqual([]);
+    const flushed = flushDigests(t.db, t0 + 10_000, settings());
+    expect(flushed.messageIds).toHaveLength(1);
+    expect(listPendingNotices(t.db).map((n) => n.contactId)).toEqual(['oncall']);
+    expect(dueOutbox(t.db, t0 + 10_000).map((r) => r.messageId)).toEqual(flushed.messageIds);
+  });
+
+  it('a later mail in the same flush replies to the thread the first one started', () => {
+    t = openTestDb();
+    const a = insertAlarm(t.db, { loopId: 'well', condition: 'tripped', priority: 'alarm', raisedAt: t0 });
+    queueNotices(t.db, { kind: 'notify', alarmId: a, contactIds: ['office', 'oncall'], notice: 'raised', actor: null, note: null }, t0, 0);
+    const { messageIds } = flushDigests(t.db, t0, settings());
+    const rows = dueOutbox(t.db, t0);
+    expect(rows).toHaveLength(2);
+    expect(rows[0]!.headers['In-Reply-To']).toBeUndefined();
+    expect(rows[1]!.headers['In-Reply-To']).toBe(messageIds[0]);
+    expect(rows[0]!.from).toBe('pairwatch <monitor@ridgeway.example>');
+  });
+
+  it('notices for a contact no longer configured are audited as not sent, never silently dropped', () => {
+    t = openTestDb();
+    const a = insertAlarm(t.db, { loopId: 'well', condition: 'tripped', priority: 'alarm', raisedAt: t0 });
+    queueNotices(t.db, { kind: 'notify', alarmId: a, contactIds: ['gone'], notice: 'raised', actor: null, note: null }, t0, 0);
+    const result = flushDigests(t.db, t0, settings());
+    expect(result).toEqual({ messageIds: [], unknownContacts: ['gone'] });
+    const audit = t.db.prepare("SELECT action, alarm_id AS alarmId, note FROM audit WHERE action = 'mail-failed'").all();
+    expect(audit).toEqual([{ action: 'mail-failed', alarmId: a, note: 'not sent: contact "gone" is no longer in the configuration' }]);
+    expect(listPendingNotices(t.db)).toEqual([]);
+  });
+
+  it('rolls everything back when writing the outbox fails, so the notices are still there', () => {
+    t = openTestDb();
+    const a = insertAlarm(t.db, { loopId: 'well', condition: 'tripped', priority: 'alarm', raisedAt: t0 });
+    queueNotices(t.db, { kind: 'notify', alarmId: a, contactIds: ['office', 'oncall'], notice: 'raised', actor: null, note: null }, t0, 0);
+    // Two mails with one Message-ID: the outbox refuses the second (UNIQUE), and nothing of the flush remains.
+    const clash = settings({ newMessageId: () => '<same@pairwatch.ridgeway.example>' });
+    expect(() => flushDigests(t.db, t0, clash)).toThrow(/UNIQUE/);
+    expect(listPendingNotices(t.db)).toHaveLength(2);
+    expect(dueOutbox(t.db, t0)).toEqual([]);
+    expect((t.db.prepare('SELECT thread_message_id AS id FROM alarms').get() as { id: string | null }).id).toBeNull();
+  });
+});

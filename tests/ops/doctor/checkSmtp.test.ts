@@ -1,0 +1,125 @@
+import { execFileSync } from 'node:child_process';
+import { mkdtempSync, readFileSync } from 'node:fs';
+import type { AddressInfo } from 'node:net';
+import { createServer } from 'node:net';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { SMTPServer } from 'smtp-server';
+import { afterEach, describe, expect, it } from 'vitest';
+import type { MailConfig } from '../../../src/config/schema.js';
+import { checkSmtp, verifyWithNodemailer, type SmtpVerifier } from '../../../src/ops/doctor/checkSmtp.js';
+
+/** Real SMTP servers on loopback (the registry's smtp-server package); doctor must never send a message. */
+const servers: SMTPServer[] = [];
+let messagesReceived = 0;
+
+async function startServer(options: ConstructorParameters<typeof SMTPServer>[0]): Promise<number> {
+  const server = new SMTPServer({
+    ...options,
+    onData(stream, _session, callback) {
+      messagesReceived++;
+      stream.resume();
+      stream.on('end', () => callback());
+    },
+  });
+  servers.push(server);
+  await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', () => resolve()));
+  return (server.server.address() as AddressInfo).port;
+}
+
+afterEach(async () => {
+  await Promise.all(servers.splice(0).map((s) => new Promise<void>((resolve) => s.close(() => resolve()))));
+});
+
+function mail(port: number, smtp: Partial<NonNullable<MailConfig['smtp']>> = {}): MailConfig {
+  return {
+    from: 'pairwatch <monitor@example.org>',
+    smtp: { host: '127.0.0.1', port, secure: false, require_tls: false, timeout: 5000, user: 'monitor', pass_env: 'PW_TEST_SMTP_PASS', ...smtp },
+    group_window: 10_000,
+    retry_first: 15_000,
+    retry_max: 900_000,
+    failing_after: 3,
+  };
+}
+
+const loginChecker = (user: string, pass: string) => ({
+  authOptional: false,
+  allowInsecureAuth: true,
+  onAuth(auth: { username?: string; password?: string }, _session: unknown, callback: (err: Error | null, response?: { user: string }) => void) {
+    if (auth.username === user && auth.password === pass) callback(null, { user });
+    else callback(Object.assign(new Error('Invalid username or password'), { responseCode: 535 }));
+  },
+});
+
+describe('checkSmtp against a real SMTP server on loopback', () => {
+  it('connects and logs in without sending mail', async () => {
+    const port = await startServer({ disabledCommands: ['STARTTLS'], ...loginChecker('monitor', 's3cret') });
+    const result = await checkSmtp(mail(port), { PW_TEST_SMTP_PASS: 's3cret' }, verifyWithNodemailer);
+    expect(result).toMatchObject({ name: 'smtp', status: 'ok' });
+    expect(result.finding).toContain('logged in as monitor');
+    expect(result.finding).toContain('no mail sent');
+    expect(messagesReceived).toBe(0);
+  });
+
+  it('fails a wrong password with a fix naming the settings', async () => {
+    const port = await startServer({ disabledCommands: ['STARTTLS'], ...loginChecker('monitor', 's3cret') });
+    const result = await checkSmtp(mail(port), { PW_TEST_SMTP_PASS: 'wrong' }, verifyWithNodemailer);
+    expect(result.status).toBe('fail');
+    expect(result.finding).toContain('refused the login for monitor');
+    expect(result.fix).toContain('mail.smtp.user');
+  });
+
+  it('fails when nothing listens', async () => {
+    // A port known to be closed: bound by us, then released.
+    const probe = createServer();
+    await new Promise<void>((resolve) => probe.listen(0, '127.0.0.1', () => resolve()));
+    const port = (probe.address() as AddressInfo).port;
+    await new Promise<void>((resolve) => probe.close(() => resolve()));
+    const result = await checkSmtp(mail(port), { PW_TEST_SMTP_PASS: 'x' }, verifyWithNodemailer);
+    expect(result.status).toBe('fail');
+    expect(result.finding).toContain(`cannot connect to 127.0.0.1:${port}`);
+    expect(result.fix).toContain('587');
+  });
+
+  it('refuses a STARTTLS certificate it cannot trust', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'pw-smtp-tls-'));
+    execFileSync('openssl', ['req', '-x509', '-newkey', 'rsa:2048', '-nodes', '-keyout', join(dir, 'key.pem'), '-out', join(dir, 'cert.pem'), '-days', '1', '-subj', '/CN=localhost'], { stdio: 'ignore' });
+    const port = await startServer({ key: readFileSync(join(dir, 'key.pem')), cert: readFileSync(join(dir, 'cert.pem')), ...loginChecker('monitor', 's3cret') });
+    const result = await checkSmtp(mail(port), { PW_TEST_SMTP_PASS: 's3cret' }, verifyWithNodemailer);
+    expect(result.status).toBe('fail');
+    expect(result.finding).toContain('not trusted');
+  });
+});
+
+describe('checkSmtp without a server', () => {
+  const never: SmtpVerifier = async () => {
+    throw new Error('must not be called');
+  };
+
+  it('warns and skips when there are no SMTP settings', async () => {
+    const result = await checkSmtp({ ...mail(25), smtp: undefined }, {}, never);
+    expect(result.status).toBe('warn');
+    expect(result.finding).toMatch(/^skipped/);
+  });
+
+  it('fails when the password variable is not set', async () => {
+    const result = await checkSmtp(mail(587), {}, never);
+    expect(result.status).toBe('fail');
+    expect(result.finding).toContain('PW_TEST_SMTP_PASS');
+    expect(result.fix).toContain('/etc/pairwatch/env');
+  });
+
+  it('reports STARTTLS when the client log shows the upgrade', async () => {
+    const upgraded: SmtpVerifier = async () => ({ log: ['Connection upgraded with STARTTLS'] });
+    const result = await checkSmtp(mail(587, { host: 'smtp.example.org' }), { PW_TEST_SMTP_PASS: 'x' }, upgraded);
+    expect(result).toMatchObject({ status: 'ok' });
+    expect(result.finding).toContain('STARTTLS');
+  });
+
+  it('warns about a server far away that offers no encryption', async () => {
+    const plain: SmtpVerifier = async () => ({ log: [] });
+    const result = await checkSmtp(mail(587, { host: 'smtp.example.org' }), { PW_TEST_SMTP_PASS: 'x' }, plain);
+    expect(result.status).toBe('warn');
+    expect(result.finding).toContain('no encryption');
+  });
+});

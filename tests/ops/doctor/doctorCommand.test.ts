@@ -1,0 +1,136 @@
+import { mkdtempSync, writeFileSync } from 'node:fs';
+import type { AddressInfo } from 'node:net';
+import { createServer } from 'node:net';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { PassThrough } from 'node:stream';
+import { afterEach, describe, expect, it } from 'vitest';
+import type { CliIo } from '../../../src/cli/cliTypes.js';
+import { createDoctorCommand, doctorCommand } from '../../../src/cli/doctorCommand.js';
+import { createDoctorDeps } from '../../../src/ops/doctor/defaultDoctorDeps.js';
+import { line } from './protocolLines.js';
+import { openPtyPair, type PtyPair } from './ptyDecoder.js';
+
+/** `pairwatch doctor` end to end: a real config file, a real pseudo-terminal decoder through serialport. */
+const cleanups: Array<() => Promise<void> | void> = [];
+afterEach(async () => {
+  for (const cleanup of cleanups.splice(0).reverse()) await cleanup();
+});
+
+function captureIo(): { io: CliIo; out: () => string } {
+  const stdout = new PassThrough();
+  const stderr = new PassThrough();
+  let text = '';
+  stdout.on('data', (c) => (text += String(c)));
+  stderr.on('data', (c) => (text += String(c)));
+  return { io: { stdout, stderr, stdin: new PassThrough(), env: {} }, out: () => text };
+}
+
+async function freePort(): Promise<number> {
+  const server = createServer();
+  await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', () => resolve()));
+  const port = (server.address() as AddressInfo).port;
+  await new Promise<void>((resolve) => server.close(() => resolve()));
+  return port;
+}
+
+async function siteFile(dir: string, decoderPort: string): Promise<string> {
+  const file = join(dir, 'site.yaml');
+  writeFileSync(
+    file,
+    [
+      'site: { name: "Test Farm" }',
+      'decoders:',
+      `  - { id: barn, port: "${decoderPort}", baud: 115200 }`,
+      'loops:',
+      '  - { id: north-store, name: "North store", decoder: barn, input: 1 }',
+      '  - { id: calf-shed, name: "Calf shed", decoder: barn, input: 2 }',
+      `storage: { path: "${join(dir, 'data', 'site.db')}" }`,
+      `web: { listen: "127.0.0.1:${await freePort()}" }`,
+      '',
+    ].join('\n'),
+  );
+  return file;
+}
+
+/** Writes a HELLO then a TICK every 100 ms, stamped with a µs clock, as a decoder would. */
+function runDecoder(pty: PtyPair): () => void {
+  let seq = 0;
+  const timeUs = () => Math.round(performance.now() * 1000) % 4294967296;
+  pty.write(line('HELLO 1 4 test-fw.1'));
+  const timer = setInterval(() => pty.write(line(`TICK ${seq++ % 65536} ${timeUs()} NNNN`)), 100);
+  return () => clearInterval(timer);
+}
+
+describe('pairwatch doctor', () => {
+  it('passes a working pseudo-terminal decoder', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'pw-doctor-ok-'));
+    const pty = await openPtyPair(dir);
+    cleanups.push(() => pty.close());
+    cleanups.push(runDecoder(pty));
+    const { io, out } = captureIo();
+    const code = await doctorCommand(['--config', await siteFile(dir, pty.port), '--listen', '2'], io);
+    const text = out();
+    expect(text).toMatch(/^ok {4}config: .* valid \(1 decoder, 2 loops\)/m);
+    expect(text).toMatch(/^ok {4}decoder barn port: .* exists/m);
+    // The HELLO went out before doctor opened the port, as on a decoder that has been running a while:
+    // the loop count comes from the TICKs.
+    expect(text).toMatch(/^ok {4}decoder barn protocol: speaks protocol v1 .*4 loops/m);
+    expect(text).toMatch(/^(ok  |warn)  decoder barn clock drift: .*ppm/m);
+    expect(text).toMatch(/^warn  smtp: skipped/m);
+    expect(text).toMatch(/^ok {4}web port: .* is free/m);
+    expect(text).toMatch(/^ok {4}disk: .* free at /m);
+    expect(text).toMatch(/^(ok  |warn)  clock sync: /m);
+    expect(text).not.toMatch(/FAIL/);
+    expect(code).toBe(0);
+  });
+
+  it('fails a silent port within about 2 s, with a fix about baud and cable', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'pw-doctor-silent-'));
+    const pty = await openPtyPair(dir);
+    cleanups.push(() => pty.close());
+    const { io, out } = captureIo();
+    const started = performance.now();
+    const code = await createDoctorCommand(() => createDoctorDeps({ listenMs: 5000 }))(['--config', await siteFile(dir, pty.port)], io);
+    const elapsedMs = performance.now() - started;
+    const text = out();
+    expect(text).toMatch(/^FAIL {2}decoder barn protocol: .* silent for 2 s/m);
+    expect(text).toMatch(/fix: .*baud.*cable/);
+    expect(text).not.toMatch(/clock drift/);
+    expect(code).toBe(1);
+    // The 2 s deadline plus the other checks; generous for a loaded 2-core machine.
+    expect(elapsedMs).toBeLessThan(6000);
+  });
+
+  it('fails a missing port and says where to look', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'pw-doctor-missing-'));
+    const { io, out } = captureIo();
+    const code = await doctorCommand(['--config', await siteFile(dir, join(dir, 'pairwatch-decoder-barn'))], io);
+    const text = out();
+    expect(text).toMatch(/^FAIL {2}decoder barn port: .* does not exist/m);
+    expect(text).toMatch(/fix: .*USB cable.*pairwatch ports/);
+    expect(text).not.toMatch(/decoder barn protocol/);
+    expect(code).toBe(1);
+  });
+
+  it('reports every config problem and no stack trace', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'pw-doctor-badconfig-'));
+    const file = join(dir, 'site.yaml');
+    writeFileSync(file, 'site: { name: "X" }\ndecoders: []\nloops: []\nstorage: { path: x.db }\ncolour: blue\n');
+    const { io, out } = captureIo();
+    const code = await doctorCommand(['--config', file], io);
+    const text = out();
+    expect(text).toMatch(/^FAIL {2}config: .* problems:/m);
+    expect(text).toContain('colour: unknown key');
+    expect(text).toContain('decoders: needs at least one decoder');
+    expect(text).not.toMatch(/\n\s+at /);
+    expect(code).toBe(1);
+  });
+
+  it('rejects bad usage with exit 2', async () => {
+    const { io, out } = captureIo();
+    expect(await doctorCommand(['--listen', 'soon'], io)).toBe(2);
+    expect(out()).toContain('--listen must be a number');
+    expect(await doctorCommand(['--colour'], io)).toBe(2);
+  });
+});

@@ -1,0 +1,166 @@
+import fc from 'fast-check';
+import { describe, expect, it } from 'vitest';
+import type { DecoderEvent } from '../../src/protocol/decoderEvent.js';
+import { initialDecoderSession, recordOverlong, sessionCounters, stepDecoderSession, type DecoderSession } from '../../src/protocol/decoderSession.js';
+import { DROP_REASONS } from '../../src/protocol/frame.js';
+import { OVERLONG_LINE } from '../../src/protocol/lineSplitter.js';
+import { MALFORMED } from './malformedLines.js';
+import { refLine } from './referenceLine.js';
+
+/** Feeds lines as given. */
+function runLines(lines: string[]): { session: DecoderSession; events: DecoderEvent[] } {
+  let session = initialDecoderSession();
+  const events: DecoderEvent[] = [];
+  for (const line of lines) {
+    const step = stepDecoderSession(session, line);
+    session = step.session;
+    events.push(...step.events);
+  }
+  return { session, events };
+}
+
+/** Feeds frame bodies, each sealed with the reference CRC. */
+function run(bodies: string[]): { session: DecoderSession; events: DecoderEvent[] } {
+  let session = initialDecoderSession();
+  const events: DecoderEvent[] = [];
+  for (const body of bodies) {
+    const step = stepDecoderSession(session, refLine(body));
+    session = step.session;
+    events.push(...step.events);
+  }
+  return { session, events };
+}
+
+const times = (events: DecoderEvent[]) => events.flatMap((e) => ('decoderUs' in e ? [e.decoderUs] : []));
+
+// The protocol's wrap: time is a 32-bit µs count, 2^32 µs = 4294.967296 s.
+const WRAP = 2 ** 32;
+
+describe('decoder session: counting', () => {
+  it('drops and counts every malformed form under its reason, never throwing', () => {
+    const { session, events } = runLines(MALFORMED.map((m) => m.line));
+    const c = sessionCounters(session);
+    expect(c.lines).toBe(MALFORMED.length);
+    expect(c.frames).toBe(0);
+    expect(c.dropped).toBe(MALFORMED.length);
+    for (const reason of DROP_REASONS) {
+      expect(c.droppedBy[reason], reason).toBe(MALFORMED.filter((m) => m.reason === reason).length);
+    }
+    expect(events.every((e) => e.kind === 'dropped')).toBe(true);
+  });
+
+  it('counts over-long lines the splitter discarded, directly or through the stand-in line', () => {
+    let session = recordOverlong(initialDecoderSession(), 2).session;
+    session = stepDecoderSession(session, OVERLONG_LINE).session;
+    expect(sessionCounters(session).droppedBy['too-long']).toBe(3);
+    expect(sessionCounters(session).lines).toBe(3);
+  });
+
+  it('a bad line changes nothing but the counters', () => {
+    const before = run(['HELLO 1 4 fw', 'TICK 0 100 NNNN']).session;
+    fc.assert(
+      fc.property(fc.string({ maxLength: 130, unit: 'binary' }), (junk) => {
+        const step = stepDecoderSession(before, junk);
+        if (step.events[0]?.kind !== 'dropped') return; // a random string that is a valid line: vanishingly rare
+        const { counters: _a, ...restAfter } = step.session;
+        const { counters: _b, ...restBefore } = before;
+        expect(restAfter).toEqual(restBefore);
+      }),
+      { numRuns: 1000, seed: 31 },
+    );
+  });
+});
+
+describe('decoder session: frames to events', () => {
+  it('turns EDGE, TICK and FAULT into events at decoder time', () => {
+    const { events } = run(['HELLO 1 3 fw', 'EDGE 0 1000 2 H', 'EDGE 1 2000 2 N', 'TICK 2 250000 NNO', 'FAULT 3 250001 SUPPLY']);
+    expect(events).toEqual([
+      { kind: 'hello', version: 1, loops: 3, firmware: 'fw' },
+      { kind: 'edge', input: 2, band: 'H', decoderUs: 1000 },
+      { kind: 'edge', input: 2, band: 'N', decoderUs: 2000 },
+      { kind: 'tick', bands: ['N', 'N', 'O'], decoderUs: 250000 },
+      { kind: 'fault', code: 'SUPPLY', decoderUs: 250001 },
+    ]);
+  });
+
+  it('accepts frames before any HELLO (joined mid-stream), without checking loop counts', () => {
+    const { events, session } = run(['EDGE 500 10 40 H', 'TICK 501 20 NNNNNN']);
+    expect(events.map((e) => e.kind)).toEqual(['edge', 'tick']);
+    expect(sessionCounters(session).lost).toBe(0);
+  });
+
+  it('drops an EDGE past the announced loops and a TICK of the wrong length as range, keeping seq', () => {
+    const { events, session } = run(['HELLO 1 4 fw', 'EDGE 0 10 5 H', 'TICK 1 20 NNN', 'TICK 2 30 NNNNN', 'EDGE 3 40 4 H']);
+    expect(events.filter((e) => e.kind === 'dropped').map((e) => e.kind === 'dropped' && e.reason)).toEqual(['range', 'range', 'range']);
+    const c = sessionCounters(session);
+    expect(c.droppedBy.range).toBe(3);
+    expect(c.lost).toBe(0); // the dropped frames arrived; they were not lost
+    expect(events.at(-1)).toEqual({ kind: 'edge', input: 4, band: 'H', decoderUs: 40 });
+  });
+});
+
+describe('decoder session: sequence numbers', () => {
+  it('counts a gap as lost frames, reported before the frame that revealed it', () => {
+    const { events, session } = run(['TICK 10 100 N', 'TICK 11 200 N', 'TICK 15 300 N']);
+    expect(events[2]).toEqual({ kind: 'lost', count: 3, decoderUs: 300 });
+    expect(sessionCounters(session).lost).toBe(3);
+  });
+
+  it('65535 → 0 is the wrap, not a gap', () => {
+    const { session, events } = run(['TICK 65534 1 N', 'TICK 65535 2 N', 'TICK 0 3 N', 'TICK 1 4 N']);
+    expect(sessionCounters(session).lost).toBe(0);
+    expect(events.some((e) => e.kind === 'lost')).toBe(false);
+  });
+
+  it('a gap across the wrap is counted modulo 65536', () => {
+    // 65533 then 2: the missing ones are 65534, 65535, 0, 1.
+    const { session } = run(['TICK 65533 1 N', 'TICK 2 2 N']);
+    expect(sessionCounters(session).lost).toBe(4);
+  });
+
+  it('after HELLO the sequence starts again at 0', () => {
+    const { session } = run(['TICK 900 1 N', 'HELLO 1 1 fw', 'TICK 0 5 N', 'TICK 1 6 N']);
+    expect(sessionCounters(session).lost).toBe(0);
+    const late = run(['HELLO 1 1 fw', 'TICK 2 5 N']).session;
+    expect(sessionCounters(late).lost).toBe(2);
+  });
+});
+
+describe('decoder session: time unwrap', () => {
+  it('unwraps the 32-bit µs clock across its wrap into monotonic time', () => {
+    const { events } = run(['TICK 0 4294967000 N', 'TICK 1 4294967295 N', 'TICK 2 0 N', 'TICK 3 204 N']);
+    expect(times(events)).toEqual([4294967000, 4294967295, WRAP, WRAP + 204]);
+  });
+
+  it('keeps unwrapping over several wraps', () => {
+    // A TICK every 200 ms for three wraps' worth (~3.6 h of decoder time).
+    const step = 200_000;
+    const bodies: string[] = [];
+    const total = Math.ceil((3 * WRAP) / step) + 5;
+    for (let i = 0; i < total; i++) bodies.push(`TICK ${i % 65536} ${(i * step) % WRAP} N`);
+    const { events, session } = run(bodies);
+    const t = times(events);
+    expect(t.at(-1)).toBe((total - 1) * step);
+    expect(sessionCounters(session).lost).toBe(0);
+    for (let i = 1; i < t.length; i++) expect(t[i]! - t[i - 1]!).toBe(step);
+  });
+
+  it('after HELLO the clock restarts from 0 but decoder time carries on forward', () => {
+    const { events } = run(['TICK 5 3000000 N', 'HELLO 1 1 fw', 'TICK 0 100 N']);
+    expect(times(events)).toEqual([3000000, 3000100]);
+  });
+
+  it('a frame stamped a little earlier than the last keeps the last time (monotonic)', () => {
+    const { events, session } = run(['TICK 0 5000 N', 'EDGE 1 4990 1 H', 'TICK 2 5100 N']);
+    expect(times(events)).toEqual([5000, 5000, 5100]);
+    expect(sessionCounters(session).lateFrames).toBe(1);
+  });
+
+  it('a clock jump back without HELLO is a missed restart: reported, and time still moves forward', () => {
+    const { events, session } = run(['TICK 700 90000000 N', 'TICK 0 100 N', 'TICK 1 200 N']);
+    expect(events[1]).toEqual({ kind: 'fault', code: 'RESTART', decoderUs: 90000100 });
+    expect(times(events)).toEqual([90000000, 90000100, 90000100, 90000200]);
+    expect(sessionCounters(session).silentRestarts).toBe(1);
+    expect(sessionCounters(session).lost).toBe(0);
+  });
+});
