@@ -24,7 +24,7 @@ function udevSyntaxProblems(text: string): string[] {
     for (const pair of line.split(/,\s*/)) {
       const m = PAIR.exec(pair.trim());
       if (!m) {
-        problems.push(`line ${index + 1}: "${pair}" is not KEY==“value” or KEY=“value”`);
+        problems.push(`line ${index + 1}: "${pair}" is not KEY=="value" or KEY="value"`);
         continue;
       }
       const [, key, attr, op] = m;

@@ -5,6 +5,7 @@ import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import Database from 'better-sqlite3';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import { backupFileTo } from '../../src/store/backupFileTo.js';
 import { backupTo } from '../../src/store/backupTo.js';
 import { checkPairwatchDatabase } from '../../src/store/checkPairwatchDatabase.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
@@ -84,6 +85,20 @@ describe('backupTo', () => {
     } finally {
       if (child.exitCode === null) child.kill();
     }
+  });
+
+  it('copies by path, read-only, beside the daemon that holds the database', async () => {
+    store.kv.set('marker', 'from the daemon');
+    const file = join(tmp.dir, 'by-path.db');
+    const result = await backupFileTo(store.path, file);
+    expect(result.file).toBe(file);
+    const copy = new Database(file, { readonly: true });
+    try {
+      expect(copy.prepare("SELECT value FROM kv WHERE key = 'marker'").pluck().get()).toBe('from the daemon');
+    } finally {
+      copy.close();
+    }
+    await expect(backupFileTo(join(tmp.dir, 'nothing-here.db'), file)).rejects.toMatchObject({ code: 'PW_STORE_NOT_PAIRWATCH' });
   });
 
   it('reports a failure as a StoreError and leaves no partial file', async () => {

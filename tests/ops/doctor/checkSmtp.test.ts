@@ -4,7 +4,7 @@ import type { AddressInfo } from 'node:net';
 import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { SMTPServer } from 'smtp-server';
+import { SMTPServer, type SMTPServerOptions } from 'smtp-server';
 import { afterEach, describe, expect, it } from 'vitest';
 import type { MailConfig } from '../../../src/config/schema.js';
 import { checkSmtp, verifyWithNodemailer, type SmtpVerifier } from '../../../src/ops/doctor/checkSmtp.js';
@@ -13,7 +13,7 @@ import { checkSmtp, verifyWithNodemailer, type SmtpVerifier } from '../../../src
 const servers: SMTPServer[] = [];
 let messagesReceived = 0;
 
-async function startServer(options: ConstructorParameters<typeof SMTPServer>[0]): Promise<number> {
+async function startServer(options: SMTPServerOptions): Promise<number> {
   const server = new SMTPServer({
     ...options,
     onData(stream, _session, callback) {
@@ -42,10 +42,10 @@ function mail(port: number, smtp: Partial<NonNullable<MailConfig['smtp']>> = {})
   };
 }
 
-const loginChecker = (user: string, pass: string) => ({
+const loginChecker = (user: string, pass: string): SMTPServerOptions => ({
   authOptional: false,
   allowInsecureAuth: true,
-  onAuth(auth: { username?: string; password?: string }, _session: unknown, callback: (err: Error | null, response?: { user: string }) => void) {
+  onAuth(auth, _session, callback) {
     if (auth.username === user && auth.password === pass) callback(null, { user });
     else callback(Object.assign(new Error('Invalid username or password'), { responseCode: 535 }));
   },

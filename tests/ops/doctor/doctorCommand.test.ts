@@ -127,6 +127,38 @@ describe('pairwatch doctor', () => {
     expect(code).toBe(1);
   });
 
+  it('warns, not fails, when another program (the running service) holds the port', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'pw-doctor-busy-'));
+    const pty = await openPtyPair(dir);
+    cleanups.push(() => pty.close());
+    const { SerialPort } = await import('serialport');
+    const holder = new SerialPort({ path: pty.port, baudRate: 115200, autoOpen: false });
+    await new Promise<void>((resolve, reject) => holder.open((err) => (err ? reject(err) : resolve())));
+    cleanups.push(() => new Promise<void>((resolve) => holder.close(() => resolve())));
+    const { io, out } = captureIo();
+    const code = await doctorCommand(['--config', await siteFile(dir, pty.port)], io);
+    expect(out()).toMatch(/^warn  decoder barn protocol: .* is in use by another program/m);
+    expect(out()).toContain('systemctl stop pairwatch');
+    expect(code).toBe(0);
+  });
+
+  it('checks a decoder behind a serial-to-network box (tcp://)', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'pw-doctor-tcp-'));
+    let seq = 0;
+    const box = createServer((socket) => {
+      const timer = setInterval(() => socket.write(line(`TICK ${seq++} ${Math.round(performance.now() * 1000) % 4294967296} NN`)), 100);
+      socket.on('close', () => clearInterval(timer));
+      socket.on('error', () => clearInterval(timer));
+    });
+    await new Promise<void>((resolve) => box.listen(0, '127.0.0.1', () => resolve()));
+    cleanups.push(() => new Promise<void>((resolve) => box.close(() => resolve())));
+    const { io, out } = captureIo();
+    const code = await doctorCommand(['--config', await siteFile(dir, `tcp://127.0.0.1:${(box.address() as AddressInfo).port}`), '--listen', '2'], io);
+    expect(out()).toMatch(/^ok {4}decoder barn port: tcp:\/\/127\.0\.0\.1:\d+ accepted a connection/m);
+    expect(out()).toMatch(/^ok {4}decoder barn protocol: speaks protocol v1 .*2 loops/m);
+    expect(code).toBe(0);
+  });
+
   it('rejects bad usage with exit 2', async () => {
     const { io, out } = captureIo();
     expect(await doctorCommand(['--listen', 'soon'], io)).toBe(2);

@@ -1,0 +1,31 @@
+import { describe, expect, it } from 'vitest';
+import { csrfProblem } from '../../../src/web/auth/csrfCheck.js';
+import { decideLoginThrottle } from '../../../src/web/auth/loginThrottle.js';
+
+const base = { origin: undefined, secFetchSite: undefined, allowedOrigins: ['http://monitor.local:8080'], expectedToken: 'tok-123', submittedToken: 'tok-123' };
+
+describe('csrfProblem', () => {
+  it('accepts the session token with no Origin (older browsers) or the server\'s own Origin', () => {
+    expect(csrfProblem(base)).toBeNull();
+    expect(csrfProblem({ ...base, origin: 'http://monitor.local:8080', secFetchSite: 'same-origin' })).toBeNull();
+  });
+
+  it('refuses missing or wrong tokens, foreign or opaque origins, and cross-site fetch metadata', () => {
+    expect(csrfProblem({ ...base, submittedToken: undefined })).toMatch(/missing/);
+    expect(csrfProblem({ ...base, submittedToken: 'tok-124' })).toMatch(/does not match/);
+    expect(csrfProblem({ ...base, submittedToken: 'tok-12' })).toMatch(/does not match/);
+    expect(csrfProblem({ ...base, origin: 'http://monitor.local:8081' })).toMatch(/origin/);
+    expect(csrfProblem({ ...base, origin: 'null' })).toMatch(/origin/);
+    // W3C Fetch Metadata Request Headers: Sec-Fetch-Site "cross-site".
+    expect(csrfProblem({ ...base, secFetchSite: 'cross-site' })).toMatch(/another site/);
+    expect(csrfProblem({ ...base, expectedToken: null })).toMatch(/no session/);
+  });
+});
+
+describe('decideLoginThrottle', () => {
+  it('allows up to the limit of failures per minute, per address and per name', () => {
+    expect(decideLoginThrottle({ byIp: 4, byName: 4 }, 5)).toEqual({ allowed: true });
+    expect(decideLoginThrottle({ byIp: 5, byName: 0 }, 5)).toEqual({ allowed: false, retryAfterSeconds: 60 });
+    expect(decideLoginThrottle({ byIp: 0, byName: 5 }, 5)).toEqual({ allowed: false, retryAfterSeconds: 60 });
+  });
+});
