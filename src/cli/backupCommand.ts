@@ -1,7 +1,6 @@
 import { resolve } from 'node:path';
 import { parseArgs } from 'node:util';
-import { backupTo } from '../store/backupTo.js';
-import { openStore } from '../store/openStore.js';
+import { backupFileTo } from '../store/backupFileTo.js';
 import type { CliCommand } from './cliTypes.js';
 import { DEFAULT_CONFIG_PATH, loadConfigForCli } from './loadConfigForCli.js';
 
@@ -15,13 +14,8 @@ export const backupCommand: CliCommand = async (argv, io) => {
   }
   const config = loadConfigForCli(values.config ?? DEFAULT_CONFIG_PATH, io);
   if (!config) return 2;
-  // No lock: the daemon keeps running and writing while the backup copies pages.
-  const store = openStore({ path: resolve(config.storage.path), lock: false });
-  try {
-    const result = await backupTo(store, resolve(target));
-    io.stdout.write(`backup written: ${result.file} (${result.bytes} bytes)\n`);
-    return 0;
-  } finally {
-    store.close();
-  }
+  // Read-only, no lock, no migration: the daemon keeps running and writing while pages are copied.
+  const result = await backupFileTo(resolve(config.storage.path), resolve(target));
+  io.stdout.write(`backup written: ${result.file} (${result.bytes} bytes)\n`);
+  return 0;
 };

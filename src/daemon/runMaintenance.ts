@@ -3,17 +3,20 @@ import type { Logger } from 'pino';
 import type { SiteConfig } from '../config/schema.js';
 import { applyRetention } from '../store/applyRetention.js';
 import { dailyBackup } from '../store/dailyBackup.js';
+import { pruneEdges } from '../store/pruneEdges.js';
 import type { Store } from '../store/openStore.js';
 
 const DAY_MS = 86_400_000;
 const LAST_RUN_KEY = 'daemon.maintenance.last_run';
 
 /**
- * The daily housekeeping: retention and compaction, then the daily backup. Checked every hour and run
+ * Hourly and daily housekeeping: retention and compaction, then the daily backup. Checked every hour and run
  * when a day has passed since the last run (kept in the database, so a restart does not repeat it).
  */
 export async function runMaintenance(options: { config: SiteConfig; store: Store; now: number; logger: Logger; force?: boolean }): Promise<boolean> {
   const { config, store, now, logger } = options;
+  // The edge ring is pruned every hour, so it stays near its 6-hour size between the daily runs.
+  pruneEdges(store, config.storage.retention.edges, now);
   const last = Number(store.kv.get(LAST_RUN_KEY) ?? 0);
   if (!options.force && now - last < DAY_MS) return false;
   store.kv.set(LAST_RUN_KEY, String(now));

@@ -1,9 +1,20 @@
 import { spawnSync } from 'node:child_process';
-import { copyFileSync, cpSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, statSync, writeFileSync, lstatSync } from 'node:fs';
+import { copyFileSync, cpSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, statSync, writeFileSync, lstatSync rmSync } from 'node:fs';
 import { createHash } from 'node:crypto';
 import { tmpdir } from 'node:os';
 import { join, relative } from 'node:path';
-import { describe, expect, it } from 'vitest';
+import { afterAll, describe, expect, it } from 'vitest';
+
+/** Temp folders made by this file, removed when it is done. */
+const madeDirs: string[] = [];
+function tempDir(prefix: string): string {
+  const dir = mkdtempSync(join(tmpdir(), prefix));
+  madeDirs.push(dir);
+  return dir;
+}
+afterAll(() => {
+  for (const dir of madeDirs) rmSync(dir, { recursive: true, force: true });
+});
 
 const REPO = join(import.meta.dirname, '../..');
 
@@ -12,7 +23,7 @@ const REPO = join(import.meta.dirname, '../..');
  * files, and a stand-in dist/ (the real build is not the subject here, and building takes a while).
  */
 function sourceTree(): string {
-  const dir = mkdtempSync(join(tmpdir(), 'pw-src-'));
+  const dir = tempDir('pw-src-');
   cpSync(join(REPO, 'deploy'), join(dir, 'deploy'), { recursive: true });
   mkdirSync(join(dir, 'config'));
   copyFileSync(join(REPO, 'config/example.yaml'), join(dir, 'config/example.yaml'));
@@ -57,7 +68,7 @@ const modeOf = (path: string) => (statSync(path).mode & 0o777).toString(8);
 describe('deploy/install.sh into a scratch root (DESTDIR)', () => {
   it('lays out the expected tree, and a second run changes nothing', () => {
     const source = sourceTree();
-    const root = mkdtempSync(join(tmpdir(), 'pw-root-'));
+    const root = tempDir('pw-root-');
     const first = run('install.sh', source, root);
     expect(first.err).toBe('');
     expect(first.code).toBe(0);
@@ -112,7 +123,7 @@ describe('deploy/install.sh into a scratch root (DESTDIR)', () => {
 
   it('never overwrites an edited config, env file or udev rule, yet updates the app', () => {
     const source = sourceTree();
-    const root = mkdtempSync(join(tmpdir(), 'pw-root-'));
+    const root = tempDir('pw-root-');
     expect(run('install.sh', source, root).code).toBe(0);
     const edited = 'site: { name: "Our farm" }\n# edited by hand\n';
     writeFileSync(join(root, 'etc/pairwatch/site.yaml'), edited);
@@ -133,7 +144,7 @@ describe('deploy/install.sh into a scratch root (DESTDIR)', () => {
 
   it('refuses an unbuilt checkout with a fix, and unknown options', () => {
     const source = sourceTree();
-    const root = mkdtempSync(join(tmpdir(), 'pw-root-'));
+    const root = tempDir('pw-root-');
     const bad = run('install.sh', source, root, ['--colour']);
     expect(bad.code).toBe(1);
     expect(bad.err).toContain('unknown option "--colour"');
@@ -149,7 +160,7 @@ describe('deploy/install.sh into a scratch root (DESTDIR)', () => {
 describe('deploy/uninstall.sh in a scratch root', () => {
   it('keeps config and data unless --purge', () => {
     const source = sourceTree();
-    const root = mkdtempSync(join(tmpdir(), 'pw-root-'));
+    const root = tempDir('pw-root-');
     expect(run('install.sh', source, root).code).toBe(0);
     writeFileSync(join(root, 'var/lib/pairwatch/site.db'), 'data');
 

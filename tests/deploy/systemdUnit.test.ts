@@ -1,8 +1,19 @@
 import { execFileSync, spawnSync } from 'node:child_process';
-import { copyFileSync, existsSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { copyFileSync, existsSync, mkdtempSync, readFileSync, writeFileSync rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { describe, expect, it } from 'vitest';
+import { afterAll, describe, expect, it } from 'vitest';
+
+/** Temp folders made by this file, removed when it is done. */
+const madeDirs: string[] = [];
+function tempDir(prefix: string): string {
+  const dir = mkdtempSync(join(tmpdir(), prefix));
+  madeDirs.push(dir);
+  return dir;
+}
+afterAll(() => {
+  for (const dir of madeDirs) rmSync(dir, { recursive: true, force: true });
+});
 
 const UNIT = join(import.meta.dirname, '../../deploy/pairwatch.service');
 
@@ -32,7 +43,7 @@ describe('deploy/pairwatch.service', () => {
   it('passes systemd-analyze verify with no warnings', () => {
     const analyze = spawnSync('systemd-analyze', ['--version']);
     expect(analyze.error, 'systemd-analyze is missing: install Debian\'s systemd package (.ci/run does)').toBeUndefined();
-    const dir = mkdtempSync(join(tmpdir(), 'pw-unit-'));
+    const dir = tempDir('pw-unit-');
     const copy = join(dir, 'pairwatch.service');
     // verify checks that ExecStart's program exists; the unit names /usr/bin/node (Debian's nodejs).
     // Where Node lives elsewhere, point the test copy at this Node instead.
@@ -48,7 +59,7 @@ describe('deploy/pairwatch.service', () => {
 
   it('a misspelt directive would be caught by the same check', () => {
     // Guards the guard: systemd-analyze really reports unknown keys in this environment.
-    const dir = mkdtempSync(join(tmpdir(), 'pw-unit-bad-'));
+    const dir = tempDir('pw-unit-bad-');
     const copy = join(dir, 'pairwatch.service');
     copyFileSync(UNIT, copy);
     writeFileSync(copy, readFileSync(copy, 'utf8').replace('NoNewPrivileges=yes', 'NoNewPrivilege=yes').replace('ExecStart=/usr/bin/node', `ExecStart=${process.execPath}`));

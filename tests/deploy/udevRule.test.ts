@@ -1,9 +1,20 @@
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, writeFileSync rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { describe, expect, it } from 'vitest';
+import { afterAll, describe, expect, it } from 'vitest';
 import { renderRule, udevRuleLine } from '../../src/ops/ports/udevRuleLine.js';
+
+/** Temp folders made by this file, removed when it is done. */
+const madeDirs: string[] = [];
+function tempDir(prefix: string): string {
+  const dir = mkdtempSync(join(tmpdir(), prefix));
+  madeDirs.push(dir);
+  return dir;
+}
+afterAll(() => {
+  for (const dir of madeDirs) rmSync(dir, { recursive: true, force: true });
+});
 
 const TEMPLATE = join(import.meta.dirname, '../../deploy/99-pairwatch-decoder.rules.in');
 const PLACEHOLDERS = { vendorId: '@VENDOR_ID@', productId: '@PRODUCT_ID@', serialNumber: '@SERIAL@', name: '@NAME@' };
@@ -58,7 +69,7 @@ describe('deploy/99-pairwatch-decoder.rules.in', () => {
     expect(udevSyntaxProblems(filled.line)).toEqual([]);
     expect(udevSyntaxProblems(template)).toEqual([]);
     if (udevadmVerifyAvailable()) {
-      const dir = mkdtempSync(join(tmpdir(), 'pw-udev-'));
+      const dir = tempDir('pw-udev-');
       const file = join(dir, '99-pairwatch-decoder.rules');
       writeFileSync(file, `${filled.line}\n`);
       const result = spawnSync('udevadm', ['verify', file], { encoding: 'utf8' });

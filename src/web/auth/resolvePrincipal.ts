@@ -2,6 +2,7 @@ import type BetterSqlite3 from 'better-sqlite3';
 import { findLiveApiTokenByHash } from '../../store/apiTokenRepo.js';
 import { findWebSession } from '../../store/webSessionRepo.js';
 import type { Principal } from './principal.js';
+import { tokenActor } from './accountName.js';
 import { sha256Hex } from './secretToken.js';
 
 export const SESSION_COOKIE = 'pw_session';
@@ -27,7 +28,7 @@ export function resolvePrincipal(
     if (!match) return { kind: 'bad-token' };
     const token = findLiveApiTokenByHash(db, sha256Hex(match[1]!));
     if (!token) return { kind: 'bad-token' };
-    return { kind: 'found', principal: { kind: 'token', name: token.name, role: token.role, csrfToken: null, sessionIdHash: null } };
+    return { kind: 'found', principal: { kind: 'token', name: tokenActor(token.name), role: token.role, csrfToken: null, sessionIdHash: null } };
   }
   if (sessionCookie) {
     const idHash = sha256Hex(sessionCookie);

@@ -1,9 +1,20 @@
-import { mkdtempSync } from 'node:fs';
+import { mkdtempSync rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { describe, expect, it } from 'vitest';
+import { afterAll, describe, expect, it } from 'vitest';
 import { checkDiskSpace, DISK_FAIL_BYTES, DISK_WARN_BYTES, type DiskDeps } from '../../../src/ops/doctor/checkDiskSpace.js';
 import { createDoctorDeps } from '../../../src/ops/doctor/defaultDoctorDeps.js';
+
+/** Temp folders made by this file, removed when it is done. */
+const madeDirs: string[] = [];
+function tempDir(prefix: string): string {
+  const dir = mkdtempSync(join(tmpdir(), prefix));
+  madeDirs.push(dir);
+  return dir;
+}
+afterAll(() => {
+  for (const dir of madeDirs) rmSync(dir, { recursive: true, force: true });
+});
 
 const MiB = 1024 * 1024;
 function deps(free: number, existing: string[] = ['/var/lib/pairwatch', '/var/lib', '/var', '/'], writable = true): DiskDeps {
@@ -35,7 +46,7 @@ describe('checkDiskSpace', () => {
   });
 
   it('reads real free space with fs.statfs', async () => {
-    const folder = mkdtempSync(join(tmpdir(), 'pw-disk-'));
+    const folder = tempDir('pw-disk-');
     const result = await checkDiskSpace(join(folder, 'site.db'), createDoctorDeps().disk);
     expect(result.finding).toMatch(/(MiB|GiB) free at /);
   });

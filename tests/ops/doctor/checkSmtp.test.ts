@@ -1,13 +1,24 @@
 import { execFileSync } from 'node:child_process';
-import { mkdtempSync, readFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync rmSync } from 'node:fs';
 import type { AddressInfo } from 'node:net';
 import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { SMTPServer, type SMTPServerOptions } from 'smtp-server';
-import { afterEach, describe, expect, it } from 'vitest';
+import { afterAll, afterEach, describe, expect, it } from 'vitest';
 import type { MailConfig } from '../../../src/config/schema.js';
 import { checkSmtp, verifyWithNodemailer, type SmtpVerifier } from '../../../src/ops/doctor/checkSmtp.js';
+
+/** Temp folders made by this file, removed when it is done. */
+const madeDirs: string[] = [];
+function tempDir(prefix: string): string {
+  const dir = mkdtempSync(join(tmpdir(), prefix));
+  madeDirs.push(dir);
+  return dir;
+}
+afterAll(() => {
+  for (const dir of madeDirs) rmSync(dir, { recursive: true, force: true });
+});
 
 /** Real SMTP servers on loopback (the registry's smtp-server package); doctor must never send a message. */
 const servers: SMTPServer[] = [];
@@ -82,7 +93,7 @@ describe('checkSmtp against a real SMTP server on loopback', () => {
   });
 
   it('refuses a STARTTLS certificate it cannot trust', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'pw-smtp-tls-'));
+    const dir = tempDir('pw-smtp-tls-');
     execFileSync('openssl', ['req', '-x509', '-newkey', 'rsa:2048', '-nodes', '-keyout', join(dir, 'key.pem'), '-out', join(dir, 'cert.pem'), '-days', '1', '-subj', '/CN=localhost'], { stdio: 'ignore' });
     const port = await startServer({ key: readFileSync(join(dir, 'key.pem')), cert: readFileSync(join(dir, 'cert.pem')), ...loginChecker('monitor', 's3cret') });
     const result = await checkSmtp(mail(port), { PW_TEST_SMTP_PASS: 's3cret' }, verifyWithNodemailer);

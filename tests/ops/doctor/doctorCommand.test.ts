@@ -1,15 +1,26 @@
-import { mkdtempSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, writeFileSync rmSync } from 'node:fs';
 import type { AddressInfo } from 'node:net';
 import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { PassThrough } from 'node:stream';
-import { afterEach, describe, expect, it } from 'vitest';
+import { afterAll, afterEach, describe, expect, it } from 'vitest';
 import type { CliIo } from '../../../src/cli/cliTypes.js';
 import { createDoctorCommand, doctorCommand } from '../../../src/cli/doctorCommand.js';
 import { createDoctorDeps } from '../../../src/ops/doctor/defaultDoctorDeps.js';
 import { line } from './protocolLines.js';
 import { openPtyPair, type PtyPair } from './ptyDecoder.js';
+
+/** Temp folders made by this file, removed when it is done. */
+const madeDirs: string[] = [];
+function tempDir(prefix: string): string {
+  const dir = mkdtempSync(join(tmpdir(), prefix));
+  madeDirs.push(dir);
+  return dir;
+}
+afterAll(() => {
+  for (const dir of madeDirs) rmSync(dir, { recursive: true, force: true });
+});
 
 /** `pairwatch doctor` end to end: a real config file, a real pseudo-terminal decoder through serialport. */
 const cleanups: Array<() => Promise<void> | void> = [];
@@ -64,7 +75,7 @@ function runDecoder(pty: PtyPair): () => void {
 
 describe('pairwatch doctor', () => {
   it('passes a working pseudo-terminal decoder', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'pw-doctor-ok-'));
+    const dir = tempDir('pw-doctor-ok-');
     const pty = await openPtyPair(dir);
     cleanups.push(() => pty.close());
     cleanups.push(runDecoder(pty));
@@ -86,7 +97,7 @@ describe('pairwatch doctor', () => {
   });
 
   it('fails a silent port within about 2 s, with a fix about baud and cable', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'pw-doctor-silent-'));
+    const dir = tempDir('pw-doctor-silent-');
     const pty = await openPtyPair(dir);
     cleanups.push(() => pty.close());
     const { io, out } = captureIo();
@@ -103,7 +114,7 @@ describe('pairwatch doctor', () => {
   });
 
   it('fails a missing port and says where to look', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'pw-doctor-missing-'));
+    const dir = tempDir('pw-doctor-missing-');
     const { io, out } = captureIo();
     const code = await doctorCommand(['--config', await siteFile(dir, join(dir, 'pairwatch-decoder-barn'))], io);
     const text = out();
@@ -114,7 +125,7 @@ describe('pairwatch doctor', () => {
   });
 
   it('reports every config problem and no stack trace', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'pw-doctor-badconfig-'));
+    const dir = tempDir('pw-doctor-badconfig-');
     const file = join(dir, 'site.yaml');
     writeFileSync(file, 'site: { name: "X" }\ndecoders: []\nloops: []\nstorage: { path: x.db }\ncolour: blue\n');
     const { io, out } = captureIo();
@@ -128,7 +139,7 @@ describe('pairwatch doctor', () => {
   });
 
   it('warns, not fails, when another program (the running service) holds the port', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'pw-doctor-busy-'));
+    const dir = tempDir('pw-doctor-busy-');
     const pty = await openPtyPair(dir);
     cleanups.push(() => pty.close());
     const { SerialPort } = await import('serialport');
@@ -143,7 +154,7 @@ describe('pairwatch doctor', () => {
   });
 
   it('checks a decoder behind a serial-to-network box (tcp://)', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'pw-doctor-tcp-'));
+    const dir = tempDir('pw-doctor-tcp-');
     let seq = 0;
     const box = createServer((socket) => {
       const timer = setInterval(() => socket.write(line(`TICK ${seq++} ${Math.round(performance.now() * 1000) % 4294967296} NN`)), 100);
