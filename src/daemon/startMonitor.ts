@@ -118,8 +118,9 @@ export async function startMonitor(options: StartMonitorOptions) {
 
   const envelopeTo = (ids: readonly string[]) =>
     config.contacts.filter((c) => ids.length === 0 || ids.includes(c.id)).map((c) => mailbox(c));
+  // The daily report is the proof of life: with no `report.notify`, every contact gets it.
   const reportTo = envelopeTo(config.report.notify);
-  const lifecycleTo = config.report.notify.length > 0 ? reportTo : envelopeTo([]);
+  const lifecycleTo = reportTo;
   const envelope = (to: string[]) => ({ from: config.mail.from, to, newMessageId: noticeSettings.newMessageId });
   let nextReport = nextReportAt(startedAt, config.report.at, config.site.timezone);
 

@@ -122,8 +122,8 @@ describe('alarm actions', () => {
   it('acknowledges with a note, as the token holder', async () => {
     const res = await post('/api/v1/alarms/7/ack', { note: 'on my way with a heater' });
     expect(res.statusCode).toBe(200);
-    expect(res.json()).toMatchObject({ id: 7, state: 'acknowledged', ackedBy: 'script-operator', note: 'on my way with a heater' });
-    expect(web.site.calls).toContainEqual({ command: 'acknowledge', args: [7, 'script-operator', 'on my way with a heater'] });
+    expect(res.json()).toMatchObject({ id: 7, state: 'acknowledged', ackedBy: 'token:script-operator', note: 'on my way with a heater' });
+    expect(web.site.calls).toContainEqual({ command: 'acknowledge', args: [7, 'token:script-operator', 'on my way with a heater'] });
   });
 
   it('acknowledges with no body at all, and with an empty JSON body', async () => {
@@ -298,7 +298,7 @@ describe('GET /api/v1/decoders and /api/v1/me', () => {
 
   it('says who the token belongs to', async () => {
     const res = await get('/api/v1/me', web.tokens.admin);
-    expect(res.json()).toEqual({ name: 'script-admin', role: 'admin', via: 'token' });
+    expect(res.json()).toEqual({ name: 'token:script-admin', role: 'admin', via: 'token' });
   });
 });
 
