@@ -12,12 +12,15 @@ import { createDropFolderTransport, createSmtpTransport, type MailTransport } fr
 import { nextReportAt } from '../notify/nextReportAt.js';
 import { mailbox, noticeSettingsFromConfig, publicUrlFor } from '../notify/noticeSettings.js';
 import { createOutboxWorker } from '../notify/outboxWorker.js';
+import { createMetrics } from '../ops/metrics.js';
+import { createStallGuard } from '../ops/stallGuard.js';
 import { createDurableWriter } from '../store/createDurableWriter.js';
 import { openStore, type Store } from '../store/openStore.js';
 import { enqueueOutbox } from '../store/outboxRepo.js';
 import { buildWebServer } from '../web/buildWebServer.js';
 import { webListenWarnings } from '../web/webListenWarnings.js';
 import { createLiveFeed } from './createLiveFeed.js';
+import { createMetricsSync } from './createMetricsSync.js';
 import { createReadModel } from './createReadModel.js';
 import { createWebCommands } from './createWebCommands.js';
 import { gatherDailyReport } from './gatherDailyReport.js';
@@ -91,6 +94,7 @@ export async function startMonitor(options: StartMonitorOptions) {
     transport = createDropFolderTransport(folder);
     logger.info({ folder }, `no SMTP server configured: mail is written as .eml files into ${folder}`);
   }
+  let mailFailures = 0;
   const worker = createOutboxWorker({
     db: store.db,
     transport,
@@ -108,6 +112,10 @@ export async function startMonitor(options: StartMonitorOptions) {
       monitorCore.clearSystem('mail-failing', now());
     },
     onSent: (row) => logger.info({ messageId: row.messageId, to: row.to, subject: row.subject }, `mail sent: ${row.subject}`),
+    onFailed: (row, err) => {
+      mailFailures += 1;
+      logger.warn({ messageId: row.messageId, err: err.message }, `mail not sent yet: ${err.message}`);
+    },
     logger,
   });
 
@@ -115,6 +123,21 @@ export async function startMonitor(options: StartMonitorOptions) {
   const commands = createWebCommands(config, monitorCore, now);
   const web = buildWebServer({ config, db: store.db, read, commands, live, ackSecret, now, logger });
   for (const warning of webListenWarnings(config)) logger.warn(warning);
+
+  // Prometheus scrape, without auth like /healthz: keep web.listen on a trusted network.
+  const metrics = createMetrics();
+  const syncMetrics = createMetricsSync({ config, core: monitorCore, store, metrics, mailFailures: () => mailFailures });
+  web.get('/metrics', async (_request, reply) => {
+    syncMetrics();
+    return reply.type(metrics.contentType).send(await metrics.render());
+  });
+  const stallGuard = createStallGuard({
+    onStall: (report) => {
+      metrics.countStall(report.activity, report.blockedMs);
+      logger.warn(report, `event loop was blocked for ${report.blockedMs} ms (while: ${report.activities.join(', ') || 'unknown'})`);
+    },
+  });
+  stallGuard.start();
 
   const envelopeTo = (ids: readonly string[]) =>
     config.contacts.filter((c) => ids.length === 0 || ids.includes(c.id)).map((c) => mailbox(c));
@@ -216,7 +239,7 @@ export async function startMonitor(options: StartMonitorOptions) {
   const maintenance = () => {
     if (stopping) return;
     try {
-      void runMaintenance({ config, store, now: now(), logger }).catch((err: unknown) => logger.error({ err }, `daily maintenance failed: ${(err as Error).message}`));
+      void stallGuard.run('maintenance', () => runMaintenance({ config, store, now: now(), logger })).catch((err: unknown) => logger.error({ err }, `daily maintenance failed: ${(err as Error).message}`));
     } catch (err) {
       logger.error({ err }, `daily maintenance failed: ${(err as Error).message}`);
     }
@@ -257,13 +280,16 @@ export async function startMonitor(options: StartMonitorOptions) {
     stopping = true;
     const deadline = now() + deadlineMs;
     for (const timer of timers) clearTimeout(timer);
+    stallGuard.stop();
     await Promise.allSettled(links.map((link) => link.close()));
     monitorCore.flushEdges();
     lifecycleMail('stopped', reason);
     writer.flush();
     // Try to get pending mail out, but never past the deadline: the outbox keeps what is left.
     const remaining = Math.max(0, deadline - now());
-    await Promise.race([runNotifications(true), new Promise((r) => setTimeout(r, remaining))]);
+    let giveUp: NodeJS.Timeout | undefined;
+    await Promise.race([runNotifications(true), new Promise((r) => (giveUp = setTimeout(r, remaining)))]);
+    clearTimeout(giveUp);
     await web.close().catch(() => undefined);
     writer.flush();
     store.close();

@@ -1,0 +1,71 @@
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import type BetterSqlite3 from 'better-sqlite3';
+import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import { findLiveApiTokenByHash, insertApiToken, listApiTokens, revokeApiToken } from '../../src/store/apiTokenRepo.js';
+import { countLoginFailures, deleteLoginFailuresBefore, insertLoginFailure } from '../../src/store/loginFailureRepo.js';
+import { openDatabase } from '../../src/store/openDatabase.js';
+import { deleteUser, findUserByName, insertUser, listUsers } from '../../src/store/userRepo.js';
+import { deleteExpiredWebSessions, findWebSession, insertWebSession } from '../../src/store/webSessionRepo.js';
+
+let dir: string;
+let db: BetterSqlite3.Database;
+const T = Date.parse('2026-12-01T20:00:00.000Z');
+beforeEach(() => {
+  dir = mkdtempSync(join(tmpdir(), 'pairwatch-repo-'));
+  db = openDatabase(join(dir, 'site.db')).db;
+});
+afterEach(() => {
+  db.close();
+  rmSync(dir, { recursive: true, force: true });
+});
+
+const addUser = (name: string) => insertUser(db, { name, role: 'operator', passwordHash: 'h', passwordSalt: 's', createdAt: T })!;
+
+describe('userRepo', () => {
+  it('inserts once per name, lists without secrets, deletes with sessions', () => {
+    const u = addUser('meg');
+    expect(addUser('meg')).toBeNull();
+    expect(listUsers(db)).toEqual([{ id: u.id, name: 'meg', role: 'operator', createdAt: T }]);
+    insertWebSession(db, { idHash: 'abc', userId: u.id, csrfToken: 'c', createdAt: T, expiresAt: T + 1000 });
+    expect(deleteUser(db, 'meg')).toBe(true);
+    expect(findUserByName(db, 'meg')).toBeNull();
+    expect(db.prepare('SELECT count(*) AS n FROM web_sessions').get()).toEqual({ n: 0 });
+    expect(deleteUser(db, 'meg')).toBe(false);
+  });
+});
+
+describe('webSessionRepo', () => {
+  it('finds a session until it expires, then cleans it up', () => {
+    const u = addUser('meg');
+    insertWebSession(db, { idHash: 'abc', userId: u.id, csrfToken: 'c', createdAt: T, expiresAt: T + 1000 });
+    expect(findWebSession(db, 'abc', T + 999)).toMatchObject({ userName: 'meg', role: 'operator', csrfToken: 'c', expiresAt: T + 1000 });
+    expect(findWebSession(db, 'abc', T + 1000)).toBeNull();
+    expect(findWebSession(db, 'other', T)).toBeNull();
+    expect(deleteExpiredWebSessions(db, T + 1000)).toBe(1);
+  });
+});
+
+describe('apiTokenRepo', () => {
+  it('finds live tokens by hash only, keeps revoked rows', () => {
+    insertApiToken(db, { name: 'station', tokenHash: 'h1', role: 'viewer', createdAt: T });
+    expect(insertApiToken(db, { name: 'station', tokenHash: 'h2', role: 'viewer', createdAt: T })).toBeNull();
+    expect(findLiveApiTokenByHash(db, 'h1')?.name).toBe('station');
+    expect(revokeApiToken(db, 'station', T + 5)).toBe(true);
+    expect(revokeApiToken(db, 'station', T + 6)).toBe(false);
+    expect(findLiveApiTokenByHash(db, 'h1')).toBeNull();
+    expect(listApiTokens(db)).toMatchObject([{ name: 'station', revokedAt: T + 5 }]);
+  });
+});
+
+describe('loginFailureRepo', () => {
+  it('counts failures per address and per name inside the window', () => {
+    insertLoginFailure(db, { name: 'meg', ip: '192.0.2.1', at: T - 61_000 });
+    insertLoginFailure(db, { name: 'meg', ip: '192.0.2.1', at: T - 30_000 });
+    insertLoginFailure(db, { name: 'tom', ip: '192.0.2.1', at: T - 10_000 });
+    insertLoginFailure(db, { name: 'meg', ip: '192.0.2.2', at: T });
+    expect(countLoginFailures(db, { name: 'meg', ip: '192.0.2.1', sinceAt: T - 60_000 })).toEqual({ byIp: 2, byName: 2 });
+    expect(deleteLoginFailuresBefore(db, T - 60_000)).toBe(1);
+  });
+});
