@@ -24,6 +24,7 @@ import { createMetricsSync } from './createMetricsSync.js';
 import { createReadModel } from './createReadModel.js';
 import { createWebCommands } from './createWebCommands.js';
 import { gatherDailyReport } from './gatherDailyReport.js';
+import { composeStorageAlert } from './composeStorageAlert.js';
 import { createMonitorCore } from './monitorCore.js';
 import { runMaintenance } from './runMaintenance.js';
 
@@ -60,6 +61,22 @@ export async function startMonitor(options: StartMonitorOptions) {
   const dataDir = dirname(dbPath);
   mkdirSync(dataDir, { recursive: true });
 
+  const ackSecret = loadOrCreateAckSecret(dataDir);
+  const noticeSettings = noticeSettingsFromConfig(config, ackSecret);
+  let transport: MailTransport;
+  if (options.transport) transport = options.transport;
+  else if (config.mail.smtp) transport = createSmtpTransport(config.mail.smtp, env);
+  else {
+    const folder = resolve(dropFolderFor(config));
+    transport = createDropFolderTransport(folder);
+    logger.info({ folder }, `no SMTP server configured: mail is written as .eml files into ${folder}`);
+  }
+  // Who hears about the monitor itself: the first step of the default policy, else the report contacts.
+  const storageAlertTo = () => {
+    const first = config.escalation.default?.steps[0]?.notify ?? config.report.notify;
+    return config.contacts.filter((c) => first.length === 0 || first.includes(c.id)).map((c) => mailbox(c));
+  };
+
   const store: Store = openStore({ path: dbPath });
   if (store.opened.backupFile) logger.info({ backup: store.opened.backupFile }, 'database backed up before migrating');
 
@@ -71,6 +88,14 @@ export async function startMonitor(options: StartMonitorOptions) {
     onFailing(failure) {
       logger.error({ failure }, `storage failing: ${failure.message} — classifying in memory, retrying`);
       core?.raiseSystem('storage-failing', now());
+      // Every channel that still works: the board and /healthz read memory; mail must bypass the outbox.
+      const to = storageAlertTo();
+      if (to.length > 0) {
+        transport
+          .send(composeStorageAlert(config, failure, now(), to, noticeSettings.newMessageId()))
+          .then(() => logger.info('storage-failing mail sent directly'))
+          .catch((err: unknown) => logger.error({ err }, `could not mail the storage failure either: ${(err as Error).message}`));
+      }
     },
     onRecovered(info) {
       logger.info(info, 'storage writing again');
@@ -84,16 +109,6 @@ export async function startMonitor(options: StartMonitorOptions) {
   core = createMonitorCore({ config, store, writer, logger, now: startedAt, onChange: (what) => live.publish({ type: what }) });
   const monitorCore = core;
 
-  const ackSecret = loadOrCreateAckSecret(dataDir);
-  const noticeSettings = noticeSettingsFromConfig(config, ackSecret);
-  let transport: MailTransport;
-  if (options.transport) transport = options.transport;
-  else if (config.mail.smtp) transport = createSmtpTransport(config.mail.smtp, env);
-  else {
-    const folder = resolve(dropFolderFor(config));
-    transport = createDropFolderTransport(folder);
-    logger.info({ folder }, `no SMTP server configured: mail is written as .eml files into ${folder}`);
-  }
   let mailFailures = 0;
   const worker = createOutboxWorker({
     db: store.db,

@@ -1,0 +1,254 @@
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { insertApiToken } from '../../src/store/apiTokenRepo.js';
+import { openStore } from '../../src/store/openStore.js';
+import { sha256Hex } from '../../src/web/auth/secretToken.js';
+import { bareMessageId, readCommitted, type Committed } from './fixtures/dbSnapshot.js';
+import { startDecoderFeeder, type DecoderFeeder } from './fixtures/decoderFeeder.js';
+import { ensureBuilt, killAllDaemons, spawnDaemon, type DaemonProcess } from './fixtures/daemonProcess.js';
+import { seededRandom } from './fixtures/seeded.js';
+import { faultSiteYaml } from './fixtures/siteYaml.js';
+import { startSmtpCounter, type SmtpCounter } from './fixtures/smtpCounter.js';
+import { calmScenario, stormScenario } from './fixtures/stormScenario.js';
+
+/**
+ * Power cut mid-write, twenty times: the real daemon (a child process) is killed with SIGKILL at
+ * seeded random moments while 16 loops flap, and restarted each time. What a read-only observer saw
+ * committed just before each kill must still be there afterwards; every mail the outbox ever held
+ * must reach a real SMTP server at least once; and no reminder or escalation may be queued for an
+ * alarm somebody had already acknowledged (through the API, with a token).
+ */
+const ROUNDS = 20;
+const LOOPS = 16;
+const SEED = 0x5eed_0006;
+const TOKEN = `pwt_${'k'.repeat(43)}`;
+
+let tmp: string;
+let dbPath: string;
+let configFile: string;
+let feeder: DecoderFeeder;
+let smtp: SmtpCounter;
+
+beforeAll(async () => {
+  ensureBuilt();
+  tmp = mkdtempSync(join(tmpdir(), 'pw-faults-kill9-'));
+  dbPath = join(tmp, 'data', 'brackenfold.db');
+  smtp = await startSmtpCounter();
+  feeder = await startDecoderFeeder(stormScenario({ loops: LOOPS, seconds: 900, seed: SEED, firstFaultAtMs: 1500 }));
+  configFile = join(tmp, 'site.yaml');
+  writeFileSync(
+    configFile,
+    faultSiteYaml({
+      port: `tcp://127.0.0.1:${feeder.port}`,
+      loops: LOOPS,
+      dbPath,
+      listen: '127.0.0.1:0',
+      smtpPort: smtp.port,
+      // Short enough that escalation steps and repeats fall inside a round.
+      secondStepAfter: '2s',
+      repeatEvery: '3s',
+      maxRepeats: 3,
+      groupWindow: '300ms',
+      retryFirst: '1s',
+      retryMax: '3s',
+    }),
+  );
+  // An operator's API token, stored as the CLI would (only its hash), before the daemon first starts.
+  const store = openStore({ path: dbPath });
+  try {
+    insertApiToken(store.db, { name: 'yard-script', tokenHash: sha256Hex(TOKEN), role: 'operator', createdAt: Date.now() });
+  } finally {
+    store.close();
+  }
+}, 60_000);
+
+afterAll(async () => {
+  await killAllDaemons();
+  await feeder?.close();
+  await smtp?.close();
+  if (tmp) rmSync(tmp, { recursive: true, force: true });
+});
+
+const auth = { authorization: `Bearer ${TOKEN}`, 'content-type': 'application/json' };
+
+interface ApiAlarm {
+  id: number;
+  state: string;
+  ackedAt: string | null;
+}
+
+async function activeAlarms(address: string): Promise<ApiAlarm[]> {
+  const response = await fetch(`${address}/api/v1/alarms?status=active`, { headers: auth, signal: AbortSignal.timeout(2000) });
+  if (response.status !== 200) throw new Error(`GET /api/v1/alarms: ${response.status}`);
+  return (await response.json()) as ApiAlarm[];
+}
+
+/** Acknowledges; returns the alarm as the API confirmed it, or null when the daemon did not confirm. */
+async function acknowledge(address: string, id: number): Promise<ApiAlarm | null> {
+  const response = await fetch(`${address}/api/v1/alarms/${id}/ack`, {
+    method: 'POST',
+    headers: auth,
+    body: JSON.stringify({ note: 'seen from the yard' }),
+    signal: AbortSignal.timeout(2000),
+  });
+  return response.status === 200 ? ((await response.json()) as ApiAlarm) : null;
+}
+
+const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
+
+/** Everything `before` held is in `after`: rows never vanish, committed facts never change. */
+function expectKept(before: Committed, after: Committed, round: number): void {
+  const afterChanges = new Map(after.stateChanges.map((r) => [r.id, r]));
+  for (const row of before.stateChanges) expect(afterChanges.get(row.id), `round ${round}: state change ${row.id}`).toEqual(row);
+
+  const afterAlarms = new Map(after.alarms.map((a) => [a.id, a]));
+  for (const alarm of before.alarms) {
+    const now = afterAlarms.get(alarm.id);
+    expect(now, `round ${round}: alarm ${alarm.id}`).toBeDefined();
+    expect({ ...now!, state: 0, active: 0, cleared_at: 0, acked_at: 0, acked_by: 0, closed_at: 0 }).toEqual({
+      ...alarm,
+      state: 0,
+      active: 0,
+      cleared_at: 0,
+      acked_at: 0,
+      acked_by: 0,
+      closed_at: 0,
+    });
+    // An acknowledgement once committed stays, with who and when.
+    if (alarm.acked_at !== null) expect([now!.acked_at, now!.acked_by]).toEqual([alarm.acked_at, alarm.acked_by]);
+    if (alarm.closed_at !== null) expect(now!.closed_at).toBe(alarm.closed_at);
+  }
+
+  const afterOutbox = new Map(after.outbox.map((r) => [r.id, r]));
+  for (const row of before.outbox) {
+    const now = afterOutbox.get(row.id);
+    expect(now?.message_id, `round ${round}: outbox row ${row.id}`).toBe(row.message_id);
+    if (row.status === 'sent') expect(now!.status).toBe('sent');
+  }
+
+  const afterAudit = new Map(after.audit.map((r) => [r.id, r]));
+  for (const row of before.audit) expect(afterAudit.get(row.id), `round ${round}: audit ${row.id}`).toEqual(row);
+}
+
+describe('kill -9 of the real daemon during a fault storm (16 loops flapping), 20 rounds', () => {
+  it('keeps everything committed, delivers every queued mail, and never reminds about an acknowledged alarm', async () => {
+    const random = seededRandom(SEED);
+    const confirmedAcks = new Map<number, string>();
+    const seenBeforeKills: Committed[] = [];
+    let killedWhileStarting = 0;
+
+    for (let round = 1; round <= ROUNDS; round++) {
+      const daemon: DaemonProcess = spawnDaemon(configFile);
+      const spawnedAt = Date.now();
+      // Some kills land during start-up (migrations, first commits), most while it is busy.
+      const lifetimeMs = random.int(250, 3200);
+      let address: string | null = null;
+      void daemon.waitForAddress(20_000).then(
+        (a) => (address = a),
+        () => undefined,
+      );
+      while (Date.now() - spawnedAt < lifetimeMs) {
+        expect(daemon.isRunning(), `round ${round}: daemon exited by itself: ${daemon.stderr()}`).toBe(true);
+        if (address !== null && random.next() < 0.5) {
+          try {
+            for (const alarm of await activeAlarms(address)) {
+              if (alarm.state !== 'unacknowledged' && alarm.state !== 'returned-unacknowledged') continue;
+              if (random.next() < 0.5) continue;
+              const acked = await acknowledge(address, alarm.id);
+              if (acked?.ackedAt) confirmedAcks.set(alarm.id, acked.ackedAt);
+            }
+          } catch {
+            // The daemon may be mid-start; the next poll tries again.
+          }
+        }
+        await sleep(random.int(50, 250));
+      }
+      if (address === null) killedWhileStarting += 1;
+      const before = readCommitted(dbPath);
+      await daemon.kill9();
+      expect(daemon.otherStdout, `round ${round}: non-JSON output`).toEqual([]);
+      const after = readCommitted(dbPath);
+      if (before) {
+        expect(after, `round ${round}: database unreadable after the kill`).not.toBeNull();
+        expectKept(before, after!, round);
+        seenBeforeKills.push(before);
+      }
+    }
+
+    // The storm passes (the decoder restarts calm); a last start drains the outbox.
+    feeder.switchTo(calmScenario({ loops: LOOPS, seed: SEED }));
+    const last = spawnDaemon(configFile);
+    const address = await last.waitForAddress(20_000);
+    const drainDeadline = Date.now() + 60_000;
+    let final: Committed | null = null;
+    let quietSince: number | null = null;
+    while (Date.now() < drainDeadline) {
+      // Acknowledge everything left, so repeats stop and the outbox can run dry.
+      try {
+        for (const alarm of await activeAlarms(address)) {
+          if (alarm.state === 'unacknowledged' || alarm.state === 'returned-unacknowledged') {
+            const acked = await acknowledge(address, alarm.id);
+            if (acked?.ackedAt) confirmedAcks.set(alarm.id, acked.ackedAt);
+          }
+        }
+      } catch {
+        // try again on the next pass
+      }
+      final = readCommitted(dbPath);
+      const quiet = final !== null && final.pendingNotices === 0 && final.outbox.every((r) => r.status === 'sent');
+      if (quiet) quietSince ??= Date.now();
+      else quietSince = null;
+      if (quietSince !== null && Date.now() - quietSince > 1500) break;
+      await sleep(200);
+    }
+    expect(last.isRunning()).toBe(true);
+    await last.terminate();
+    expect(final, 'the database after the storm').not.toBeNull();
+    const pending = final!.outbox.filter((r) => r.status !== 'sent');
+    expect(pending, 'mail still waiting after the drain').toEqual([]);
+
+    // The storm really happened and really was cut short, or the checks below prove nothing.
+    expect(final!.stateChanges.length).toBeGreaterThan(LOOPS);
+    expect(final!.alarms.length).toBeGreaterThan(3);
+    expect(seenBeforeKills.length).toBeGreaterThanOrEqual(ROUNDS - 1);
+    // How many kills landed during start-up varies with the machine's speed: logged, not asserted.
+    console.info(`kill -9 storm: ${killedWhileStarting} of ${ROUNDS} kills landed before the web server listened`);
+    expect(confirmedAcks.size).toBeGreaterThan(0);
+    expect(final!.audit.some((a) => a.action === 'repeat' || a.action === 'escalation-step')).toBe(true);
+
+    // Whatever was committed before any kill is still there at the end.
+    for (const [i, before] of seenBeforeKills.entries()) expectKept(before, final!, i + 1);
+
+    // Every message the outbox ever held reached the SMTP server at least once (counted by Message-ID).
+    const delivered = new Set([...smtp.byMessageId.keys()].map(bareMessageId));
+    const everQueued = new Set([...seenBeforeKills.flatMap((c) => c.outbox), ...final!.outbox].map((r) => bareMessageId(r.message_id)));
+    const missing = [...everQueued].filter((id) => !delivered.has(id));
+    expect(missing, 'queued but never delivered').toEqual([]);
+    // And nothing arrived that the outbox never held.
+    expect([...delivered].filter((id) => !everQueued.has(id))).toEqual([]);
+
+    // An acknowledgement the API confirmed survived every kill.
+    const alarms = new Map(final!.alarms.map((a) => [a.id, a]));
+    for (const [id, ackedAt] of confirmedAcks) expect(alarms.get(id)?.acked_at, `alarm ${id}`).toBe(ackedAt);
+
+    // No reminder or escalation step was queued for an alarm after it had been acknowledged.
+    const late = final!.audit.filter((a) => {
+      if (a.action !== 'repeat' && a.action !== 'escalation-step') return false;
+      const ackedAt = a.alarm_id === null ? null : (alarms.get(a.alarm_id)?.acked_at ?? null);
+      return ackedAt !== null && a.at > ackedAt;
+    });
+    expect(late, 'reminders queued after acknowledgement').toEqual([]);
+    // Nor does any mail about a single alarm, written after its acknowledgement, still call it unacknowledged.
+    const outboxById = new Map(final!.outbox.map((r) => [bareMessageId(r.message_id), r]));
+    const misleading = smtp.messages.filter((m) => {
+      const row = outboxById.get(bareMessageId(m.messageId ?? ''));
+      const ids = row ? (JSON.parse(row.alarm_ids_json) as number[]) : [];
+      if (!row || ids.length !== 1) return false;
+      const ackedAt = alarms.get(ids[0]!)?.acked_at ?? null;
+      return ackedAt !== null && row.created_at > ackedAt && /, not acknowledged$/.test(m.subject ?? '');
+    });
+    expect(misleading.map((m) => m.subject)).toEqual([]);
+  }, 170_000);
+});
