@@ -303,7 +303,8 @@ export function createMonitorCore(options: MonitorCoreOptions) {
       const previous = lastMinuteCounters.get(decoderId) ?? { frames: 0, bad: 0, lost: 0 };
       lastMinuteCounters.set(decoderId, { frames: counts.frames, bad: counts.dropped, lost: counts.lost });
       const frames = Math.max(0, counts.frames - previous.frames);
-      const bad = Math.max(0, counts.dropped - previous.bad) + Math.max(0, counts.lost - previous.lost);
+      // A garbled line is dropped and then shows up again as the seq gap it leaves: count it once.
+      const bad = Math.max(Math.max(0, counts.dropped - previous.bad), Math.max(0, counts.lost - previous.lost));
       const ratio = frames + bad === 0 ? 0 : bad / (frames + bad);
       if (!noisy.has(decoderId) && bad >= NOISY_MIN_BAD && ratio >= NOISY_RATIO_ON) {
         noisy.add(decoderId);

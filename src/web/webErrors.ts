@@ -39,7 +39,6 @@ export const WEB_ERRORS = {
   PW_WEB_NOT_FOUND: { status: 404, template: 'no {what} has id "{id}"' },
   PW_WEB_NO_ROUTE: { status: 404, template: 'nothing here: {method} {path}' },
   PW_WEB_BAD_ACTION: { status: 409, template: '{reason}' },
-  PW_WEB_METHOD: { status: 405, template: '{method} is not allowed here' },
   PW_WEB_TLS_UNREADABLE: { status: 500, template: '{field}: cannot read {file}: {reason}' },
   PW_WEB_INTERNAL: {
     status: 500,

@@ -73,3 +73,31 @@ describe('pairwatch user', () => {
     expect(res.stderr).toContain('cannot read the config file: file not found');
   });
 });
+
+describe('password prompt', () => {
+  it('asks twice on a terminal without echoing, and refuses a mismatch', async () => {
+    const { PassThrough } = await import('node:stream');
+    const { readNewPassword } = await import('../../src/cli/userCommand.js');
+    const fakeTty = (keys: string[]) => {
+      const stdin = Object.assign(new PassThrough(), { isTTY: true, rawModes: [] as boolean[] });
+      (stdin as unknown as { setRawMode(on: boolean): void }).setRawMode = (on: boolean) => stdin.rawModes.push(on);
+      let echoed = '';
+      const stderr = new PassThrough();
+      stderr.on('data', (c: Buffer) => (echoed += c.toString()));
+      // Feed each line once the prompt for it has been written.
+      let next = 0;
+      stderr.on('data', () => {
+        const line = keys[next++];
+        if (line !== undefined) setImmediate(() => stdin.write(line));
+      });
+      return { io: { stdin, stdout: new PassThrough(), stderr, env: {} }, echoed: () => echoed, stdin };
+    };
+    const ok = fakeTty(['secret-pw\r', 'secret-pw\r']);
+    await expect(readNewPassword(ok.io, false)).resolves.toBe('secret-pw');
+    expect(ok.echoed()).not.toContain('secret');
+    expect(ok.stdin.rawModes).toEqual([true, false, true, false]);
+
+    const typo = fakeTty(['secret-pw\r', 'secret-pX\r']);
+    await expect(readNewPassword(typo.io, false)).rejects.toThrow(/differ/);
+  });
+});

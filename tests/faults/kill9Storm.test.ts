@@ -2,12 +2,11 @@ import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { insertApiToken } from '../../src/store/apiTokenRepo.js';
-import { openStore } from '../../src/store/openStore.js';
-import { sha256Hex } from '../../src/web/auth/secretToken.js';
+import { seedApiToken } from './fixtures/apiClient.js';
 import { bareMessageId, readCommitted, type Committed } from './fixtures/dbSnapshot.js';
 import { startDecoderFeeder, type DecoderFeeder } from './fixtures/decoderFeeder.js';
-import { ensureBuilt, killAllDaemons, spawnDaemon, type DaemonProcess } from './fixtures/daemonProcess.js';
+import { killAllDaemons, spawnDaemon, type DaemonProcess } from './fixtures/daemonProcess.js';
+import { privateBuild } from './fixtures/privateBuild.js';
 import { seededRandom } from './fixtures/seeded.js';
 import { faultSiteYaml } from './fixtures/siteYaml.js';
 import { startSmtpCounter, type SmtpCounter } from './fixtures/smtpCounter.js';
@@ -32,7 +31,7 @@ let feeder: DecoderFeeder;
 let smtp: SmtpCounter;
 
 beforeAll(async () => {
-  ensureBuilt();
+  privateBuild();
   tmp = mkdtempSync(join(tmpdir(), 'pw-faults-kill9-'));
   dbPath = join(tmp, 'data', 'brackenfold.db');
   smtp = await startSmtpCounter();
@@ -56,12 +55,7 @@ beforeAll(async () => {
     }),
   );
   // An operator's API token, stored as the CLI would (only its hash), before the daemon first starts.
-  const store = openStore({ path: dbPath });
-  try {
-    insertApiToken(store.db, { name: 'yard-script', tokenHash: sha256Hex(TOKEN), role: 'operator', createdAt: Date.now() });
-  } finally {
-    store.close();
-  }
+  seedApiToken(dbPath, TOKEN, 'operator', 'yard-script');
 }, 60_000);
 
 afterAll(async () => {
@@ -183,6 +177,7 @@ describe('kill -9 of the real daemon during a fault storm (16 loops flapping), 2
     const address = await last.waitForAddress(20_000);
     const drainDeadline = Date.now() + 60_000;
     let final: Committed | null = null;
+    let deliveredByThen = new Set<string>();
     let quietSince: number | null = null;
     while (Date.now() < drainDeadline) {
       // Acknowledge everything left, so repeats stop and the outbox can run dry.
@@ -196,6 +191,8 @@ describe('kill -9 of the real daemon during a fault storm (16 loops flapping), 2
       } catch {
         // try again on the next pass
       }
+      // Mail seen first, then the outbox: whatever had arrived was queued before this read.
+      deliveredByThen = new Set([...smtp.byMessageId.keys()].map(bareMessageId));
       final = readCommitted(dbPath);
       const quiet = final !== null && final.pendingNotices === 0 && final.outbox.every((r) => r.status === 'sent');
       if (quiet) quietSince ??= Date.now();
@@ -222,7 +219,7 @@ describe('kill -9 of the real daemon during a fault storm (16 loops flapping), 2
     for (const [i, before] of seenBeforeKills.entries()) expectKept(before, final!, i + 1);
 
     // Every message the outbox ever held reached the SMTP server at least once (counted by Message-ID).
-    const delivered = new Set([...smtp.byMessageId.keys()].map(bareMessageId));
+    const delivered = deliveredByThen;
     const everQueued = new Set([...seenBeforeKills.flatMap((c) => c.outbox), ...final!.outbox].map((r) => bareMessageId(r.message_id)));
     const missing = [...everQueued].filter((id) => !delivered.has(id));
     expect(missing, 'queued but never delivered').toEqual([]);

@@ -346,3 +346,11 @@ describe('unknown routes and internal failures', () => {
     expect(res.body).not.toMatch(/\.ts:\d+/);
   });
 });
+
+describe('oversized bodies', () => {
+  it('413 naming the body', async () => {
+    const res = await post('/api/v1/alarms/7/ack', { note: 'x'.repeat(70_000) });
+    expect(res.statusCode).toBe(413);
+    expect(res.json().error).toMatchObject({ code: 'PW_WEB_BODY_TOO_LARGE', field: 'body' });
+  });
+});

@@ -3,7 +3,8 @@ import type { AddressInfo } from 'node:net';
 import { join } from 'node:path';
 import { chromium, type Browser, type Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { startTestWeb, USERS, type TestWeb } from './fixtures/testWeb.js';
+import { newAckTokenId, signAckToken } from '../../src/notify/ackToken.js';
+import { ACK_SECRET, startTestWeb, USERS, type TestWeb } from './fixtures/testWeb.js';
 
 const CHROMIUM = '/usr/bin/chromium';
 const OUT = join(process.cwd(), 'tests', '.output', 'web');
@@ -107,6 +108,7 @@ describe('the board on a phone, in headless Chromium', () => {
 
     await page.goto(`${base}/loops/seed-store`);
     await page.screenshot({ path: join(OUT, '07-loop.png'), fullPage: true });
+    await page.locator('figure.timeline').screenshot({ path: join(OUT, '07b-timeline.png') });
     expect(await overflowsPhone(page)).toBe(false);
 
     await page.goto(`${base}/history`);
@@ -130,6 +132,28 @@ describe('the board on a phone, in headless Chromium', () => {
     await Promise.all([page.waitForURL(/done=ack/), page.click('button:has-text("Acknowledge")')]);
     expect(await page.textContent('.flash')).toBe('Acknowledged.');
     await page.screenshot({ path: join(OUT, '09-no-js-acknowledged.png'), fullPage: true });
+    await context.close();
+  }, 60_000);
+
+  it('an acknowledge link from a mail: the page asks, the button acknowledges', async () => {
+    const alarm = web.site.alarms.find((a) => a.id === 7)!;
+    alarm.state = 'unacknowledged';
+    const token = signAckToken({ alarmId: 7, expiresAt: web.clock.now + 3_600_000, tokenId: newAckTokenId() }, ACK_SECRET);
+    const context = await browser.newContext({ viewport: { width: 390, height: 844 } });
+    const page = await context.newPage();
+    const before = web.site.calls.length;
+    await page.goto(`${base}/ack/${token}`);
+    expect(await page.textContent('h1')).toBe('Acknowledge this alarm?');
+    expect(web.site.calls.length).toBe(before);
+    await page.screenshot({ path: join(OUT, '10-ack-link-confirm.png'), fullPage: true });
+    expect(await smallTapTargets(page)).toEqual([]);
+    await page.fill('#ack-note', 'from the tractor');
+    await page.click('button:has-text("Acknowledge")');
+    await expect.poll(() => page.textContent('h1')).toBe('Acknowledged');
+    await page.screenshot({ path: join(OUT, '11-ack-link-done.png'), fullPage: true });
+    expect(web.site.calls.at(-1)).toEqual({ command: 'acknowledge', args: [7, 'mail-link', 'from the tractor'] });
+    await page.goto(`${base}/ack/${token}`);
+    expect(await page.textContent('h1')).toBe('Link refused');
     await context.close();
   }, 60_000);
 });

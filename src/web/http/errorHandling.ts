@@ -6,16 +6,17 @@ import type { WebContext } from '../webContext.js';
 import { wantsJson } from './requestKind.js';
 
 /** fastify's own errors that are the client's fault, mapped to ours so the answer names the field. */
-function fromFastifyError(error: FastifyError): WebError | null {
+function fromFastifyError(error: FastifyError, request: FastifyRequest): WebError | null {
   switch (error.code) {
     case 'FST_ERR_CTP_INVALID_JSON_BODY':
     case 'FST_ERR_CTP_EMPTY_JSON_BODY':
       return new WebError('PW_WEB_BAD_JSON', { reason: error.message.replace(/^Body is not valid JSON but content-type is set to 'application\/json'$/, 'unreadable') }, { field: 'body' });
     case 'FST_ERR_CTP_BODY_TOO_LARGE':
       return new WebError('PW_WEB_BODY_TOO_LARGE', { limit: 65536 }, { field: 'body' });
-    case 'FST_ERR_CTP_INVALID_MEDIA_TYPE':
     case 'FST_ERR_CTP_INVALID_CONTENT_LENGTH':
-      return new WebError('PW_WEB_UNSUPPORTED_MEDIA', { type: 'this type' }, { field: 'content-type' });
+      return new WebError('PW_WEB_BAD_INPUT', { field: 'content-length', reason: 'does not match the body' }, { field: 'content-length' });
+    case 'FST_ERR_CTP_INVALID_MEDIA_TYPE':
+      return new WebError('PW_WEB_UNSUPPORTED_MEDIA', { type: String(request.headers['content-type'] ?? 'none').slice(0, 80) }, { field: 'content-type' });
     case 'FST_ERR_BAD_URL':
     case 'FST_ERR_ASYNC_CONSTRAINT':
       return new WebError('PW_WEB_BAD_INPUT', { field: 'url', reason: 'is not a valid address' }, { field: 'url' });
@@ -68,7 +69,7 @@ export function installErrorHandling(app: FastifyInstance, ctx: WebContext): voi
         ? raw
         : (raw as { code?: unknown }).code === 'PW_STORE_BAD_CURSOR'
           ? new WebError('PW_WEB_BAD_INPUT', { field: 'cursor', reason: 'is not a cursor this server gave out' }, { field: 'cursor' })
-          : fromFastifyError(raw);
+          : fromFastifyError(raw, request);
     if (!error) {
       const ref = randomBytes(4).toString('hex');
       ctx.log.error({ err: raw, ref, method: request.method, url: request.url.split('?')[0] }, 'web request failed');

@@ -21,7 +21,7 @@ export function renderAckConfirmPage(data: {
   const summary = html`<dl class="facts">
   <dt>What</dt><dd>${CONDITION_TEXT[alarm.condition].words}</dd>
   <dt>Since</dt><dd>${siteTime(alarm.raisedAtMs, data.timeZone, data.now)} (${spanWords(data.now - alarm.raisedAtMs)} ago)</dd>
-  <dt>Now</dt><dd>${ALARM_STATE_LABEL[alarm.state]}${alarm.ackedBy ? html` by ${alarm.ackedBy}` : ''}</dd>
+  <dt>Now</dt><dd>${ALARM_STATE_LABEL[alarm.state]}${alarm.state === 'acknowledged' && alarm.ackedBy ? html` by ${alarm.ackedBy}` : ''}</dd>
 </dl>`;
   const body = canAcknowledge(alarm.state)
     ? html`<h1>Acknowledge this alarm?</h1>

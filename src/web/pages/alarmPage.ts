@@ -82,7 +82,7 @@ export function renderAlarmPage(data: AlarmPageData, principal: Principal, flash
   const { alarm } = data;
   const text = CONDITION_TEXT[alarm.condition];
   const where = alarm.loopName
-    ? html`<a href="/loops/${encodeURIComponent(alarm.loopId ?? '')}">${alarm.loopName}</a>${alarm.location ? html`, ${alarm.location}` : ''}`
+    ? html`${alarm.loopName}${alarm.location ? html`, ${alarm.location}` : ''}`
     : html`${alarm.source === 'system' ? 'the monitor itself' : html`decoder ${alarm.source}`}`;
   const facts: SafeHtml[] = [
     html`<dt>What</dt><dd>${text.words}</dd>`,
@@ -118,6 +118,7 @@ export function renderAlarmPage(data: AlarmPageData, principal: Principal, flash
 <dl class="facts">${facts}</dl>
 <section class="panel check"><h2>What to check</h2><p>${text.check}</p></section>
 ${actions(data, principal)}
+${alarm.loopId ? html`<p><a class="button button-quiet" href="/loops/${encodeURIComponent(alarm.loopId)}">The loop and its last 24 hours</a></p>` : ''}
 <section><h2>Who was told</h2>${told}</section>
 <section><h2>What happened</h2>${trail}</section>`;
   return renderPage({ title: alarmTitle(alarm), siteName: data.siteName, principal, section: 'none', flash, body });

@@ -16,12 +16,23 @@ export function boardGroup(loop: LoopView): BoardGroup {
   return 'healthy';
 }
 
-/** Within a group, the longest-standing problem first; healthy loops by name so they stay put. */
+/** Nobody has acknowledged it yet: these come first within their group. */
+function awaitsSomeone(loop: LoopView): boolean {
+  return loop.alarm?.state === 'unacknowledged' || loop.alarm?.state === 'returned-unacknowledged';
+}
+
+/**
+ * Within alarm and trouble: what nobody has acknowledged first, then the longest-standing problem.
+ * Healthy and out-of-service loops by name, so they stay where people expect them.
+ */
 export function orderBoard(loops: readonly LoopView[]): Array<{ group: BoardGroup; loops: LoopView[] }> {
   return BOARD_GROUPS.map((group) => {
     const members = loops.filter((loop) => boardGroup(loop) === group);
+    const byName = (a: LoopView, b: LoopView) => a.name.localeCompare(b.name) || a.id.localeCompare(b.id);
     members.sort((a, b) =>
-      group === 'healthy' || group === 'out-of-service' ? a.name.localeCompare(b.name) || a.id.localeCompare(b.id) : a.sinceMs - b.sinceMs || a.name.localeCompare(b.name),
+      group === 'healthy' || group === 'out-of-service'
+        ? byName(a, b)
+        : Number(awaitsSomeone(b)) - Number(awaitsSomeone(a)) || a.sinceMs - b.sinceMs || byName(a, b),
     );
     return { group, loops: members };
   }).filter((entry) => entry.loops.length > 0);

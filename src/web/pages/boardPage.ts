@@ -3,7 +3,7 @@ import type { AlarmView, LoopView } from '../webPorts.js';
 import { orderBoard, boardState, type BoardGroup } from './boardOrder.js';
 import { html, trustedHtml, type SafeHtml } from './html.js';
 import { renderPage } from './layout.js';
-import { siteTime, spanWords } from './siteTime.js';
+import { sinceWords, siteTime, spanWords } from './siteTime.js';
 import { stateShape } from './stateShape.js';
 import { ALARM_STATE_LABEL, BOARD_STATE_LABEL, PRIORITY_LABEL } from './stateWords.js';
 import { CONDITION_TEXT } from '../../model/condition.js';
@@ -24,6 +24,13 @@ const GROUP_HEADING = {
   healthy: 'Healthy',
 } as const satisfies Record<BoardGroup, string>;
 
+const COUNT_WORDS = {
+  alarm: ['alarm', 'alarms'],
+  trouble: ['trouble', 'trouble'],
+  'out-of-service': ['out of service', 'out of service'],
+  healthy: ['healthy', 'healthy'],
+} as const satisfies Record<BoardGroup, readonly [string, string]>;
+
 function pulseWords(loop: LoopView, now: number): string {
   if (loop.lastPulseAtMs === null) return 'no pulse seen yet';
   return `last pulse ${spanWords(now - loop.lastPulseAtMs)} ago`;
@@ -32,8 +39,9 @@ function pulseWords(loop: LoopView, now: number): string {
 function loopCard(loop: LoopView, data: BoardData): SafeHtml {
   const state = boardState(loop);
   const href = loop.alarm ? `/alarms/${loop.alarm.id}` : `/loops/${encodeURIComponent(loop.id)}`;
+  // The condition is named only when the state word above does not already say it (a latched trip on a loop now healthy).
   const alarmLine = loop.alarm
-    ? html`<span class="card-alarm">${PRIORITY_LABEL[loop.alarm.priority]}: ${loop.alarm.condition} — ${ALARM_STATE_LABEL[loop.alarm.state]}</span>`
+    ? html`<span class="card-alarm">${PRIORITY_LABEL[loop.alarm.priority]}${loop.alarm.condition === loop.state ? '' : ` (${loop.alarm.condition})`}: ${ALARM_STATE_LABEL[loop.alarm.state]}</span>`
     : '';
   return html`<li class="card state-${state}" data-loop="${loop.id}">
   <a class="card-link" href="${href}">
@@ -42,7 +50,7 @@ function loopCard(loop: LoopView, data: BoardData): SafeHtml {
       <span class="card-name">${loop.name}</span>
       <span class="card-state">${BOARD_STATE_LABEL[state]}${loop.intermittent ? ' · intermittent' : ''}</span>
       ${alarmLine}
-      <span class="card-meta">since ${siteTime(loop.sinceMs, data.timeZone, data.now)} (${spanWords(data.now - loop.sinceMs)}) · ${pulseWords(loop, data.now)}</span>
+      <span class="card-meta">since ${siteTime(loop.sinceMs, data.timeZone, data.now)} (${sinceWords(data.now - loop.sinceMs)}) · ${pulseWords(loop, data.now)}</span>
       ${loop.location ? html`<span class="card-meta">${loop.location}</span>` : ''}
     </span>
   </a>
@@ -57,7 +65,7 @@ function otherAlarmCard(alarm: AlarmView, data: BoardData): SafeHtml {
       <span class="card-name">${alarm.source === 'system' ? 'The monitor itself' : alarm.source}</span>
       <span class="card-state">${PRIORITY_LABEL[alarm.priority]}: ${CONDITION_TEXT[alarm.condition].words.split(':')[0]}</span>
       <span class="card-alarm">${ALARM_STATE_LABEL[alarm.state]}</span>
-      <span class="card-meta">since ${siteTime(alarm.raisedAtMs, data.timeZone, data.now)} (${spanWords(data.now - alarm.raisedAtMs)})</span>
+      <span class="card-meta">since ${siteTime(alarm.raisedAtMs, data.timeZone, data.now)} (${sinceWords(data.now - alarm.raisedAtMs)})</span>
     </span>
   </a>
 </li>`;
@@ -66,17 +74,18 @@ function otherAlarmCard(alarm: AlarmView, data: BoardData): SafeHtml {
 /** The live part of the board, also served alone at /board/list for the live-update script. */
 export function renderBoardList(data: BoardData): string {
   const groups = orderBoard(data.loops);
-  const counts = groups.map((g) => html`<span class="count count-${g.group}">${g.loops.length} ${GROUP_HEADING[g.group].toLowerCase()}</span>`);
+  const counts = groups.map((g) => html`<span class="count count-${g.group}">${g.loops.length} ${COUNT_WORDS[g.group][g.loops.length === 1 ? 0 : 1]}</span>`);
+  const section = (g: (typeof groups)[number]) =>
+    html`<section class="group group-${g.group}" aria-labelledby="g-${g.group}"><h2 id="g-${g.group}">${GROUP_HEADING[g.group]} (${g.loops.length})</h2><ul class="cards">${g.loops.map((loop) => loopCard(loop, data))}</ul></section>`;
+  const other =
+    data.otherAlarms.length > 0
+      ? html`<section class="group group-system" aria-labelledby="g-system"><h2 id="g-system">Decoder and monitor (${data.otherAlarms.length})</h2><ul class="cards">${data.otherAlarms.map((a) => otherAlarmCard(a, data))}</ul></section>`
+      : '';
+  // Priority order of the trade: alarms, then trouble (loops first, then decoder and monitor), then the rest.
+  const urgent = groups.filter((g) => g.group === 'alarm' || g.group === 'trouble');
+  const calm = groups.filter((g) => g.group !== 'alarm' && g.group !== 'trouble');
   return html`<p class="summary">${counts.length > 0 ? counts : 'No loops are configured.'}<span class="as-of"> · as of ${siteTime(data.now, data.timeZone, data.now)}</span></p>
-${
-  data.otherAlarms.length > 0
-    ? html`<section class="group group-system" aria-labelledby="g-system"><h2 id="g-system">Decoder and monitor</h2><ul class="cards">${data.otherAlarms.map((a) => otherAlarmCard(a, data))}</ul></section>`
-    : ''
-}
-${groups.map(
-  (g) =>
-    html`<section class="group group-${g.group}" aria-labelledby="g-${g.group}"><h2 id="g-${g.group}">${GROUP_HEADING[g.group]} (${g.loops.length})</h2><ul class="cards">${g.loops.map((loop) => loopCard(loop, data))}</ul></section>`,
-)}`.value;
+${urgent.map(section)}${other}${calm.map(section)}`.value;
 }
 
 export function renderBoardPage(data: BoardData, principal: Principal, flash: string | null): string {

@@ -4,7 +4,7 @@ import type { LoopDetailView, LoopTimeline } from '../webPorts.js';
 import { boardState } from './boardOrder.js';
 import { html, type SafeHtml } from './html.js';
 import { renderPage } from './layout.js';
-import { siteTime, spanWords } from './siteTime.js';
+import { sinceWords, siteTime, spanWords } from './siteTime.js';
 import { stateShape } from './stateShape.js';
 import { ALARM_STATE_LABEL, BOARD_STATE_LABEL, PRIORITY_LABEL } from './stateWords.js';
 import { renderTimeline } from './timelineSvg.js';
@@ -49,13 +49,13 @@ export function renderLoopPage(data: LoopPageData, principal: Principal, flash: 
   const state = boardState(loop);
   const q = loop.quality;
   const alarm = loop.alarm
-    ? html`<p class="panel"><a class="button button-main" href="/alarms/${loop.alarm.id}">${PRIORITY_LABEL[loop.alarm.priority]}: ${loop.alarm.condition} — ${ALARM_STATE_LABEL[loop.alarm.state]}</a></p>`
+    ? html`<p><a class="button button-main" href="/alarms/${loop.alarm.id}">Open the ${PRIORITY_LABEL[loop.alarm.priority].toLowerCase()}: ${loop.alarm.condition}, ${ALARM_STATE_LABEL[loop.alarm.state]}</a></p>`
     : '';
   const body = html`<div class="status state-${state}">
   ${stateShape(state, 48)}
   <div>
     <h1 class="status-title">${loop.name}</h1>
-    <p class="status-state">${BOARD_STATE_LABEL[state]}${loop.intermittent ? ' · intermittent' : ''} since ${siteTime(loop.sinceMs, data.timeZone, data.now)} (${spanWords(data.now - loop.sinceMs)})</p>
+    <p class="status-state">${BOARD_STATE_LABEL[state]}${loop.intermittent ? ' · intermittent' : ''} since ${siteTime(loop.sinceMs, data.timeZone, data.now)} (${sinceWords(data.now - loop.sinceMs)})</p>
   </div>
 </div>
 ${alarm}

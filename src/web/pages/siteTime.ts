@@ -73,6 +73,11 @@ export function spanWords(ms: number): string {
   return `${Math.floor(h / 24)} days`;
 }
 
+/** How long a state has lasted: whole units, since tenths of a second mean nothing here. */
+export function sinceWords(ms: number): string {
+  return ms < 60_000 ? 'under a minute' : spanWords(ms);
+}
+
 /**
  * The UTC instant of a wall-clock time in `timeZone` (for the history filter's local date inputs).
  * A time that falls in a daylight-saving gap or overlap gets one of the two candidate instants;

@@ -1,7 +1,7 @@
 import type { LoopState } from '../../model/loopState.js';
 import type { LoopTimeline } from '../webPorts.js';
 import { html, trustedHtml, type SafeHtml } from './html.js';
-import { siteClock, spanWords } from './siteTime.js';
+import { siteClock, spanWords, wallClock } from './siteTime.js';
 import { BOARD_STATE_LABEL } from './stateWords.js';
 
 /**
@@ -21,13 +21,13 @@ const LANE_FILL = {
 } as const satisfies Record<LoopState, string>;
 
 const W = 400;
-const LEFT = 66;
+const LEFT = 74;
 const RIGHT = W - 8;
-const LANE_H = 15;
+const LANE_H = 18;
 const LANES_TOP = 6;
 const TRACE_TOP = LANES_TOP + LANES.length * LANE_H + 22;
-const TRACE_H = 110;
-const AXIS_Y = TRACE_TOP + TRACE_H + 16;
+const TRACE_H = 120;
+const AXIS_Y = TRACE_TOP + TRACE_H + 18;
 const H = AXIS_Y + 8;
 
 const r1 = (n: number) => Math.round(n * 10) / 10;
@@ -58,8 +58,8 @@ export function renderTimeline(timeline: LoopTimeline, options: TimelineOptions)
   const parts: string[] = [];
   LANES.forEach((state, i) => {
     const top = LANES_TOP + i * LANE_H;
-    parts.push(`<rect x="${LEFT}" y="${top}" width="${RIGHT - LEFT}" height="${LANE_H - 2}" fill="#000" fill-opacity="0.05"/>`);
-    parts.push(`<text x="${LEFT - 5}" y="${top + LANE_H - 5}" text-anchor="end" class="tl-label">${state}</text>`);
+    parts.push(`<rect x="${LEFT}" y="${top}" width="${RIGHT - LEFT}" height="${LANE_H - 2}" fill="currentColor" fill-opacity="0.07"/>`);
+    parts.push(`<text x="${LEFT - 5}" y="${top + LANE_H - 5.5}" text-anchor="end" class="tl-label">${state}</text>`);
   });
   for (const s of timeline.states) {
     const lane = LANES.indexOf(s.state);
@@ -97,9 +97,9 @@ export function renderTimeline(timeline: LoopTimeline, options: TimelineOptions)
   for (const seg of segments) {
     const upper = seg.map((p) => `${x(p.atMs)},${y(p.meanMs + p.jitterMs)}`);
     const lower = seg.map((p) => `${x(p.atMs)},${y(p.meanMs - p.jitterMs)}`).reverse();
-    parts.push(`<polygon points="${[...upper, ...lower].join(' ')}" fill="#1f4e9c" fill-opacity="0.25"/>`);
-    if (seg.length === 1) parts.push(`<circle cx="${x(seg[0]!.atMs)}" cy="${y(seg[0]!.meanMs)}" r="1.8" fill="#1f4e9c"/>`);
-    else parts.push(`<polyline points="${seg.map((p) => `${x(p.atMs)},${y(p.meanMs)}`).join(' ')}" fill="none" stroke="#1f4e9c" stroke-width="1.4"/>`);
+    parts.push(`<polygon points="${[...upper, ...lower].join(' ')}" class="tl-band" fill="#1f4e9c" fill-opacity="0.25"/>`);
+    if (seg.length === 1) parts.push(`<circle cx="${x(seg[0]!.atMs)}" cy="${y(seg[0]!.meanMs)}" r="1.8" class="tl-dot" fill="#1f4e9c"/>`);
+    else parts.push(`<polyline points="${seg.map((p) => `${x(p.atMs)},${y(p.meanMs)}`).join(' ')}" fill="none" class="tl-trace" stroke="#1f4e9c" stroke-width="1.6"/>`);
   }
   for (const point of timeline.intervals) {
     if (point.outOfTolerance > 0) {
@@ -108,15 +108,18 @@ export function renderTimeline(timeline: LoopTimeline, options: TimelineOptions)
     }
   }
 
-  // Time axis: a tick every 3 hours of the site's clock.
+  // Time axis: grid lines every 3 hours (for 24 h), labelled at 00, 06, 12 and 18 o'clock so labels never touch on a phone.
   const stepMs = span > 36 * 3_600_000 ? 12 * 3_600_000 : span > 12 * 3_600_000 ? 3 * 3_600_000 : 3_600_000;
   const firstTick = Math.ceil(timeline.fromMs / stepMs) * stepMs;
   for (let t = firstTick; t <= timeline.toMs; t += stepMs) {
     const px = x(t);
     parts.push(`<line x1="${px}" x2="${px}" y1="${LANES_TOP}" y2="${TRACE_TOP + TRACE_H}" stroke="currentColor" stroke-opacity="0.12"/>`);
-    if (px > LEFT + 12 && px < RIGHT - 12) parts.push(`<text x="${px}" y="${AXIS_Y}" text-anchor="middle" class="tl-label">${siteClock(t, options.timeZone)}</text>`);
+    const onSixHours = wallClock(t, options.timeZone).hour % 6 === 0;
+    if ((stepMs !== 3 * 3_600_000 || onSixHours) && px > LEFT + 16 && px < RIGHT - 16) {
+      parts.push(`<text x="${px}" y="${AXIS_Y}" text-anchor="middle" class="tl-label">${siteClock(t, options.timeZone)}</text>`);
+    }
   }
-  parts.push(`<text x="${LEFT}" y="${TRACE_TOP - 6}" class="tl-label">pulse interval per minute (band: ± jitter; ▲ out of range)</text>`);
+  parts.push(`<text x="${LEFT}" y="${TRACE_TOP - 7}" class="tl-label">pulse interval, per minute</text>`);
 
   const totals = stateDurations(timeline);
   const summary = LANES.filter((s) => (totals.get(s) ?? 0) > 0)
@@ -128,6 +131,6 @@ export function renderTimeline(timeline: LoopTimeline, options: TimelineOptions)
   // Every string above is built from numbers and fixed words of this module; only `label` is text.
   return html`<figure class="timeline">
 <svg viewBox="0 0 ${W} ${H}" role="img" aria-label="${label}" class="timeline-svg" preserveAspectRatio="xMinYMin meet">${trustedHtml(parts.join(''))}</svg>
-<figcaption>${label}</figcaption>
+<figcaption><p>${label}</p><p class="note">Upper rows: which state the loop was in. Below: the mean time between pulses each minute (line), its jitter (shaded), the accepted range (dashed, ${Math.round(lo)}–${Math.round(hi)} ms) and minutes with intervals outside it (red marks). A widening band or growing red marks show a failing joint or cable before the loop trips.</p></figcaption>
 </figure>`;
 }

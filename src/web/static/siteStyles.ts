@@ -15,13 +15,14 @@ export const SITE_STYLES = `:root {
   --healthy: #1d6b2c;
   --quiet: #4a4a4a;
   --focus: #1f4e9c;
+  --trace: #1f4e9c;
   color-scheme: light dark;
 }
 @media (prefers-color-scheme: dark) {
   :root {
     --ink: #f2f2f2; --paper: #111; --muted: #cfcfcf; --line: #8f8f8f; --panel: #1e1e1e;
     --alarm: #ff8a80; --alarm-bg: #3a1411; --trouble: #ffc46b; --trouble-bg: #33240c;
-    --healthy: #7fd68f; --quiet: #c4c4c4; --focus: #8ab4ff;
+    --healthy: #7fd68f; --quiet: #c4c4c4; --focus: #8ab4ff; --trace: #8ab4ff;
   }
 }
 *, *::before, *::after { box-sizing: border-box; }
@@ -107,8 +108,12 @@ textarea { resize: vertical; }
 .filters summary { min-height: 48px; display: flex; align-items: center; cursor: pointer; font-weight: 600; }
 .timeline { margin: 8px 0; }
 .timeline-svg { width: 100%; height: auto; display: block; color: var(--ink); }
-.tl-label { font-size: 11px; fill: currentColor; }
-.timeline figcaption { color: var(--muted); font-size: 0.95rem; }
+.tl-label { font-size: 13px; fill: currentColor; }
+/* CSS outranks the SVG's presentation attributes, so the trace follows the colour scheme. */
+.tl-trace { stroke: var(--trace); }
+.tl-band, .tl-dot { fill: var(--trace); }
+.timeline figcaption { font-size: 0.95rem; }
+.timeline figcaption p { margin: 6px 0; }
 .foot { max-width: 720px; margin: 0 auto; padding: 12px; border-top: 1px solid var(--line); }
 .signout { display: flex; flex-wrap: wrap; align-items: center; gap: 8px; }
 .signout .button { margin-top: 0; }

@@ -5,8 +5,9 @@ import { decideLoginThrottle } from '../../../src/web/auth/loginThrottle.js';
 const base = { origin: undefined, secFetchSite: undefined, allowedOrigins: ['http://monitor.local:8080'], expectedToken: 'tok-123', submittedToken: 'tok-123' };
 
 describe('csrfProblem', () => {
-  it('accepts the session token with no Origin (older browsers) or the server\'s own Origin', () => {
+  it('accepts the session token with no Origin (older browsers), an opaque one, or the server\'s own Origin', () => {
     expect(csrfProblem(base)).toBeNull();
+    expect(csrfProblem({ ...base, origin: 'null', secFetchSite: 'same-origin' })).toBeNull();
     expect(csrfProblem({ ...base, origin: 'http://monitor.local:8080', secFetchSite: 'same-origin' })).toBeNull();
   });
 
@@ -15,7 +16,8 @@ describe('csrfProblem', () => {
     expect(csrfProblem({ ...base, submittedToken: 'tok-124' })).toMatch(/does not match/);
     expect(csrfProblem({ ...base, submittedToken: 'tok-12' })).toMatch(/does not match/);
     expect(csrfProblem({ ...base, origin: 'http://monitor.local:8081' })).toMatch(/origin/);
-    expect(csrfProblem({ ...base, origin: 'null' })).toMatch(/origin/);
+    expect(csrfProblem({ ...base, origin: 'null', secFetchSite: 'cross-site' })).toMatch(/another site/);
+    expect(csrfProblem({ ...base, origin: 'null', submittedToken: undefined })).toMatch(/missing/);
     // W3C Fetch Metadata Request Headers: Sec-Fetch-Site "cross-site".
     expect(csrfProblem({ ...base, secFetchSite: 'cross-site' })).toMatch(/another site/);
     expect(csrfProblem({ ...base, expectedToken: null })).toMatch(/no session/);
