@@ -41,7 +41,10 @@ export async function run(opts: BenchOptions): Promise<BenchResult> {
   let monitor: Monitor | null = null;
   let unknownMail = 0;
   const sendStarts = new Map<string, number>();
+  // Set on the way out: mail that arrives while the monitor stops is not looked up in a closed database.
+  let finished = false;
   const onMail = (mail: ReceivedMail) => {
+    if (finished) return;
     const row = mail.messageId && monitor ? getOutboxRowByMessageId(monitor.store.db, mail.messageId) : null;
     if (!row) {
       unknownMail += 1;
@@ -121,6 +124,7 @@ export async function run(opts: BenchOptions): Promise<BenchResult> {
     }
     await waitUntil(() => samples.every((s) => s.acceptedMs !== null), 10_000, 'every alarm mail to arrive').catch(() => undefined);
   } finally {
+    finished = true;
     decoder.stop();
     await monitor?.stop('benchmark finished', 3000).catch(() => undefined);
     await smtp.close();

@@ -4,7 +4,7 @@ import type { BenchOptions, BenchResult } from './benchTypes.js';
 import { infoRow } from './benchTypes.js';
 import { grantApiToken } from './support/apiToken.js';
 import { BenchError } from './support/benchError.js';
-import { benchSiteConfig, loopIdFor } from './support/benchSite.js';
+import { benchSiteConfig } from './support/benchSite.js';
 import { createFrameMaker } from './support/frameMaker.js';
 import { percentile } from './support/percentile.js';
 import { silentLogger } from './support/silentLogger.js';
@@ -37,6 +37,8 @@ export async function run(opts: BenchOptions): Promise<BenchResult> {
   const folder = makeTempFolder('detection');
   const pty = await openPtyPair(folder.dir);
   let monitor: Monitor | null = null;
+  // Set on the way out, so a pending write never hits the closed pseudo-terminal.
+  let finished = false;
   try {
     const config = benchSiteConfig({ loops, port: pty.devicePath, dbPath: folder.path('site.db') });
     const token = grantApiToken(config.storage.path, Date.now());
@@ -71,6 +73,7 @@ export async function run(opts: BenchOptions): Promise<BenchResult> {
     const writing = new Promise<void>((resolve) => {
       let next = 0;
       const pump = () => {
+        if (finished) return resolve();
         const nowUs = (performance.now() - t0) * 1000;
         let text = '';
         const decided: Tracked[] = [];
@@ -156,6 +159,7 @@ export async function run(opts: BenchOptions): Promise<BenchResult> {
       ],
     };
   } finally {
+    finished = true;
     await monitor?.stop('benchmark finished', 3000).catch(() => undefined);
     await pty.close();
     folder.remove();

@@ -5,6 +5,7 @@ export function formatNumber(value: number | null): string {
   if (value === null) return '—';
   if (!Number.isFinite(value)) return String(value);
   const abs = Math.abs(value);
+  if (Number.isInteger(value)) return value.toLocaleString('en-GB');
   const digits = abs >= 100 ? 0 : abs >= 10 ? 1 : abs >= 1 ? 2 : 3;
   return value.toLocaleString('en-GB', { minimumFractionDigits: digits, maximumFractionDigits: digits });
 }

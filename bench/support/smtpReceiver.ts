@@ -30,8 +30,12 @@ export async function startSmtpReceiver(onMail: (mail: ReceivedMail) => void): P
         const acceptedMs = performance.now();
         callback();
         simpleParser(Buffer.concat(chunks))
-          .then((parsed) => onMail({ acceptedMs, messageId: parsed.messageId ?? null, subject: parsed.subject ?? '' }))
-          .catch(() => onMail({ acceptedMs, messageId: null, subject: '' }));
+          .then(
+            (parsed) => ({ acceptedMs, messageId: parsed.messageId ?? null, subject: parsed.subject ?? '' }),
+            () => ({ acceptedMs, messageId: null, subject: '' }),
+          )
+          .then(onMail)
+          .catch((err: unknown) => process.stderr.write(`bench SMTP receiver: handling a message failed: ${(err as Error).message}\n`));
       });
     },
   });

@@ -25,17 +25,25 @@ export function describeIssues(issues: readonly z.core.$ZodIssue[]): ConfigProbl
 
 /** Parses YAML text into a validated config; throws ConfigError listing every problem. */
 export function parseConfig(text: string, file = '<config>'): SiteConfig {
-  const doc = parseDocument(text, { prettyErrors: true, uniqueKeys: true });
-  if (doc.errors.length > 0) {
+  // No YAML 1.1 extras (!!binary, !!set, timestamps): a site config is plain mappings, lists, text and numbers.
+  const doc = parseDocument(text, { prettyErrors: true, uniqueKeys: true, resolveKnownTags: false });
+  const yamlProblems = [...doc.errors, ...doc.warnings.filter((w) => w.code === 'TAG_RESOLVE_FAILED')];
+  if (yamlProblems.length > 0) {
     throw new ConfigError(
       file,
-      doc.errors.map((e) => ({
+      yamlProblems.map((e) => ({
         path: e.linePos?.[0] ? `line ${e.linePos[0].line}, column ${e.linePos[0].col}` : '',
         message: `YAML: ${e.message.split('\n')[0]!.replace(/ at line \d+, column \d+:?$/, '')}`,
       })),
     );
   }
-  const raw: unknown = doc.toJS();
+  let raw: unknown;
+  try {
+    // A small alias budget: an "alias bomb" is refused instead of exhausting memory.
+    raw = doc.toJS({ maxAliasCount: 200 });
+  } catch (err) {
+    throw new ConfigError(file, [{ path: '', message: `YAML: ${(err as Error).message}` }]);
+  }
   if (raw === null || typeof raw !== 'object' || Array.isArray(raw)) {
     throw new ConfigError(file, [{ path: '', message: 'the file must be a YAML mapping (keys such as site:, decoders:, loops:)' }]);
   }

@@ -44,7 +44,9 @@ function labelOf(alarm: NoticeAlarm, ctx: NoticeComposeContext): string {
   if (alarm.loopId) return ctx.loops.find((l) => l.id === alarm.loopId)?.name ?? `Loop ${alarm.loopId}`;
   if (alarm.source === 'system') return 'Monitor';
   const decoder = ctx.decoders?.find((d) => d.id === alarm.source);
-  return decoder ? `Decoder ${decoder.name ?? decoder.id}` : alarm.source;
+  if (!decoder) return alarm.source;
+  // A configured name usually says what it is ("Decoder in the farm office"); an id alone does not.
+  return decoder.name ?? `Decoder ${decoder.id}`;
 }
 
 function actorOf(entry: Entry): string | null {

@@ -118,6 +118,11 @@ function acceptFrame(session: DecoderSession, frame: Frame): SessionStep {
     };
   }
 
+  // Content that does not fit what HELLO announced makes the whole line bad, and a bad line is dropped
+  // and counted, nothing else: checked before its seq or time can move the session's expectations.
+  const misfit = misfitForHello(session, frame);
+  if (misfit !== null) return dropped(session, 'range', misfit);
+
   const events: DecoderEvent[] = [];
   let next = advanceClock(session, frame.time);
   const decoderUs = next.lastDecoderUs!;
@@ -131,22 +136,7 @@ function acceptFrame(session: DecoderSession, frame: Frame): SessionStep {
     next = { ...next, counters: { ...next.counters, lost: next.counters.lost + gap } };
     events.push({ kind: 'lost', count: gap, decoderUs });
   }
-  next = { ...next, expectedSeq: (frame.seq + 1) % SEQ_MODULO };
-
-  // The frame arrived (its seq and time count), but its content must fit what HELLO announced.
-  const loops = next.hello?.loops;
-  if (loops !== undefined) {
-    if (frame.type === 'EDGE' && frame.loop > loops) {
-      const step = dropped(next, 'range', `EDGE loop ${frame.loop} is past the ${loops} loops the decoder announced`);
-      return { session: step.session, events: [...events, ...step.events] };
-    }
-    if (frame.type === 'TICK' && frame.bands.length !== loops) {
-      const step = dropped(next, 'range', `TICK has ${frame.bands.length} bands but the decoder announced ${loops} loops`);
-      return { session: step.session, events: [...events, ...step.events] };
-    }
-  }
-
-  next = { ...next, counters: { ...next.counters, frames: next.counters.frames + 1 } };
+  next = { ...next, expectedSeq: (frame.seq + 1) % SEQ_MODULO, counters: { ...next.counters, frames: next.counters.frames + 1 } };
   switch (frame.type) {
     case 'EDGE':
       events.push({ kind: 'edge', input: frame.loop, band: frame.band, decoderUs });
@@ -159,6 +149,15 @@ function acceptFrame(session: DecoderSession, frame: Frame): SessionStep {
       break;
   }
   return { session: next, events };
+}
+
+/** Why an EDGE/TICK/FAULT does not fit the loop count the last HELLO announced; null when it fits (or no HELLO yet). */
+function misfitForHello(session: DecoderSession, frame: Exclude<Frame, { type: 'HELLO' }>): string | null {
+  const loops = session.hello?.loops;
+  if (loops === undefined) return null;
+  if (frame.type === 'EDGE' && frame.loop > loops) return `EDGE loop ${frame.loop} is past the ${loops} loops the decoder announced`;
+  if (frame.type === 'TICK' && frame.bands.length !== loops) return `TICK has ${frame.bands.length} bands but the decoder announced ${loops} loops`;
+  return null;
 }
 
 /** Unwraps a raw 32-bit time against the session's anchor; the result is in `lastDecoderUs`. */

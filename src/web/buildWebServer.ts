@@ -2,7 +2,7 @@ import { readFileSync } from 'node:fs';
 import type BetterSqlite3 from 'better-sqlite3';
 import fastifyCookie from '@fastify/cookie';
 import fastifyFormbody from '@fastify/formbody';
-import Fastify, { type FastifyInstance } from 'fastify';
+import Fastify, { LogController, type FastifyError, type FastifyInstance, type FastifyReply, type FastifyRequest } from 'fastify';
 import type { Logger } from 'pino';
 import type { SiteConfig } from '../config/schema.js';
 import type { AckLinkPort } from './ackLink/ackLinkPort.js';
@@ -14,7 +14,7 @@ import { registerAuthRoutes } from './auth/authRoutes.js';
 import { DEFAULT_SCRYPT_COST, type ScryptCost } from './auth/passwordHash.js';
 import { resolvePrincipal, SESSION_COOKIE } from './auth/resolvePrincipal.js';
 import './auth/requestAuth.js';
-import { installErrorHandling } from './http/errorHandling.js';
+import { frameworkErrorHandler, installErrorHandling } from './http/errorHandling.js';
 import { securityHeaders } from './http/securityHeaders.js';
 import { registerLiveStreamRoute } from './live/liveStreamRoute.js';
 import { registerPageRoutes } from './pages/pageRoutes.js';
@@ -62,11 +62,19 @@ export function buildWebServer(options: WebServerOptions): FastifyInstance {
     : null;
   const publicUrl = config.web.public_url ? new URL(config.web.public_url) : null;
 
-  const app = (
-    tls
-      ? Fastify({ https: tls, bodyLimit: BODY_LIMIT, loggerInstance: options.logger, disableRequestLogging: true, return503OnClosing: true })
-      : Fastify({ bodyLimit: BODY_LIMIT, loggerInstance: options.logger, disableRequestLogging: true, return503OnClosing: true })
-  ) as unknown as FastifyInstance;
+  // Errors fastify raises before routing (a broken %-escape, an over-long path parameter) must get our
+  // error shape too, and must not echo the URL back; the handler is bound once ctx exists.
+  let answerFrameworkError: (error: FastifyError, request: FastifyRequest, reply: FastifyReply) => void = (_e, _q, reply) => {
+    reply.code(400).send();
+  };
+  const common = {
+    bodyLimit: BODY_LIMIT,
+    loggerInstance: options.logger,
+    logController: new LogController({ disableRequestLogging: true }),
+    return503OnClosing: true,
+    frameworkErrors: (error: FastifyError, request: FastifyRequest, reply: FastifyReply) => answerFrameworkError(error, request, reply),
+  };
+  const app = (tls ? Fastify({ https: tls, ...common }) : Fastify(common)) as unknown as FastifyInstance;
 
   const ctx: WebContext = {
     config,
@@ -108,6 +116,7 @@ export function buildWebServer(options: WebServerOptions): FastifyInstance {
   });
 
   installErrorHandling(app, ctx);
+  answerFrameworkError = frameworkErrorHandler(ctx);
   app.register(async (scope) => {
     // Inside this scope so it runs after the cookie plugin's own onRequest hook has parsed cookies.
     scope.addHook('onRequest', async (request) => {

@@ -88,3 +88,12 @@ escalation:
     expect(readFileSync('config/demo.yaml', 'utf8')).toContain('sim:');
   });
 });
+
+describe('config loading refuses YAML tricks plainly', () => {
+  it('an undefined alias, an alias bomb and YAML 1.1 tags are ConfigErrors, not exceptions', () => {
+    expect(problems('site: *nowhere\n')[0]).toMatch(/YAML: /);
+    const bomb = ['a: &a [x, x, x, x, x, x, x, x, x, x]', ...Array.from({ length: 8 }, (_, i) => `${String.fromCharCode(98 + i)}: &${String.fromCharCode(98 + i)} [*${String.fromCharCode(97 + i)}, *${String.fromCharCode(97 + i)}, *${String.fromCharCode(97 + i)}, *${String.fromCharCode(97 + i)}, *${String.fromCharCode(97 + i)}, *${String.fromCharCode(97 + i)}, *${String.fromCharCode(97 + i)}, *${String.fromCharCode(97 + i)}, *${String.fromCharCode(97 + i)}, *${String.fromCharCode(97 + i)}]`)].join('\n');
+    expect(problems(bomb)[0]).toMatch(/YAML: .*alias/i);
+    expect(problems(`${base}\nweb: !!binary aGVsbG8=\n`)).toEqual([expect.stringMatching(/^line \d+, column \d+: YAML: Unresolved tag: tag:yaml.org,2002:binary/)]);
+  });
+});

@@ -89,13 +89,57 @@ describe('decoder session: frames to events', () => {
     expect(sessionCounters(session).lost).toBe(0);
   });
 
-  it('drops an EDGE past the announced loops and a TICK of the wrong length as range, keeping seq', () => {
+  it('drops an EDGE past the announced loops and a TICK of the wrong length as range', () => {
     const { events, session } = run(['HELLO 1 4 fw', 'EDGE 0 10 5 H', 'TICK 1 20 NNN', 'TICK 2 30 NNNNN', 'EDGE 3 40 4 H']);
     expect(events.filter((e) => e.kind === 'dropped').map((e) => e.kind === 'dropped' && e.reason)).toEqual(['range', 'range', 'range']);
     const c = sessionCounters(session);
     expect(c.droppedBy.range).toBe(3);
-    expect(c.lost).toBe(0); // the dropped frames arrived; they were not lost
+    // Dropped lines never move the seq expectation (protocol v1: a bad line is dropped and counted,
+    // nothing else), so seq 0..2 are missing when EDGE 3 comes — exactly as if their CRC had failed.
+    expect(c.lost).toBe(3);
     expect(events.at(-1)).toEqual({ kind: 'edge', input: 4, band: 'H', decoderUs: 40 });
+  });
+});
+
+describe('decoder session: a frame that does not fit the HELLO changes nothing but the drop counters', () => {
+  // HELLO announced 4 loops; the session has seen TICK seq 0 at raw time 100 µs.
+  const before = run(['HELLO 1 4 fw', 'TICK 0 100 NNNN']).session;
+  const misfits = [
+    ['EDGE for loop 5 of 4', 'EDGE 1 200 5 H'],
+    // A far-off seq would otherwise count 59 999 frames lost (60000 − expected 1).
+    ['EDGE for loop 5 of 4 with a far-off seq', 'EDGE 60000 200 5 N'],
+    // 4e9 − 100 µs forward is past half the 2^32 wrap, i.e. ~295 s back: would count a silent restart.
+    ['EDGE for loop 5 of 4 with a far-off time', 'EDGE 1 4000000000 5 N'],
+    // 100 µs back is inside the late-frame slack: would count a late frame.
+    ['TICK with 3 bands, stamped late', 'TICK 1 0 NNN'],
+    // 3e9 − 100 µs forward is ~1295 s back: would count a silent restart and re-base the clock.
+    ['TICK with 3 bands, clock far back', 'TICK 1 3000000000 NNN'],
+    ['TICK with 5 bands', 'TICK 40000 300 NNNNN'],
+  ] as const;
+
+  it.each(misfits)('%s: only lines, dropped and droppedBy.range move; no event but the drop', (_label, body) => {
+    const step = stepDecoderSession(before, refLine(body));
+    expect(step.events.map((e) => e.kind)).toEqual(['dropped']);
+    const { counters: afterCounters, ...restAfter } = step.session;
+    const { counters: beforeCounters, ...restBefore } = before;
+    expect(restAfter).toEqual(restBefore);
+    expect(afterCounters).toEqual({
+      ...beforeCounters,
+      lines: beforeCounters.lines + 1,
+      dropped: beforeCounters.dropped + 1,
+      droppedBy: { ...beforeCounters.droppedBy, range: beforeCounters.droppedBy.range + 1 },
+    });
+  });
+
+  it('the next good frame carries on as if the misfit never came: no gap, time from the last good frame', () => {
+    let session = before;
+    for (const [, body] of misfits) session = stepDecoderSession(session, refLine(body)).session;
+    const next = stepDecoderSession(session, refLine('TICK 1 250100 NNNN'));
+    // seq 1 is what TICK 0 led us to expect; raw 250100 − 100 = 250 000 µs on from decoder time 100.
+    expect(next.events).toEqual([{ kind: 'tick', bands: ['N', 'N', 'N', 'N'], decoderUs: 250100 }]);
+    expect(sessionCounters(next.session).lost).toBe(0);
+    expect(sessionCounters(next.session).silentRestarts).toBe(0);
+    expect(sessionCounters(next.session).droppedBy.range).toBe(misfits.length);
   });
 });
 

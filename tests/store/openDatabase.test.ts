@@ -32,18 +32,18 @@ describe('openDatabase', () => {
   });
   afterEach(() => tmp.cleanup());
 
-  it('creates folder and file with incremental auto-vacuum, WAL, foreign keys, NORMAL sync and a busy timeout', () => {
+  it('creates folder and file with incremental auto-vacuum, WAL, foreign keys, FULL sync and a busy timeout', () => {
     const path = join(tmp.dir, 'deep', 'er', 'pairwatch.db');
     const { db, created, applied, backupFile } = openDatabase(path, { migrationsDir });
     try {
       expect(created).toBe(true);
       expect(backupFile).toBeNull();
       expect(applied).toEqual([1, 2]);
-      // Values per the SQLite PRAGMA documentation: auto_vacuum 2 = INCREMENTAL, synchronous 1 = NORMAL.
+      // Values per the SQLite PRAGMA documentation: auto_vacuum 2 = INCREMENTAL, synchronous 2 = FULL.
       expect(db.pragma('auto_vacuum', { simple: true })).toBe(2);
       expect(db.pragma('journal_mode', { simple: true })).toBe('wal');
       expect(db.pragma('foreign_keys', { simple: true })).toBe(1);
-      expect(db.pragma('synchronous', { simple: true })).toBe(1);
+      expect(db.pragma('synchronous', { simple: true })).toBe(2);
       expect(db.pragma('busy_timeout', { simple: true })).toBe(5000);
       const tables = db.prepare("SELECT name FROM sqlite_master WHERE type = 'table'").pluck().all();
       expect(tables).toEqual(expect.arrayContaining(['schema_migrations', 'loop_status', 'alarms', 'audit', 'decoder_counter_marks']));

@@ -61,6 +61,14 @@ function send(error: WebError, request: FastifyRequest, reply: FastifyReply, ctx
     );
 }
 
+/** For fastify's `frameworkErrors`: errors raised before routing, answered in the same shape as the rest. */
+export function frameworkErrorHandler(ctx: WebContext) {
+  return (_error: FastifyError, request: FastifyRequest, reply: FastifyReply): void => {
+    // Only the address is known at this point (a broken %-escape, a path parameter past its length).
+    send(new WebError('PW_WEB_BAD_INPUT', { field: 'url', reason: 'is not a valid address' }, { field: 'url' }), request, reply, ctx);
+  };
+}
+
 /** One error handler and one not-found handler for the whole server: JSON for the API, pages for people. */
 export function installErrorHandling(app: FastifyInstance, ctx: WebContext): void {
   app.setErrorHandler((raw: FastifyError, request, reply) => {
