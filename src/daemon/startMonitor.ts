@@ -8,6 +8,7 @@ import { composeDailyReport } from '../notify/composeDailyReport.js';
 import { composeLifecycleMail, type LifecycleEvent } from '../notify/composeLifecycleMail.js';
 import { dropFolderFor } from '../notify/dropFolder.js';
 import { flushDigests } from '../notify/flushDigests.js';
+import { nextNoticeDueAt } from '../notify/noticeQueue.js';
 import { createDropFolderTransport, createSmtpTransport, type MailTransport } from '../notify/mailTransport.js';
 import { nextReportAt } from '../notify/nextReportAt.js';
 import { mailbox, noticeSettingsFromConfig, publicUrlFor } from '../notify/noticeSettings.js';
@@ -106,7 +107,18 @@ export async function startMonitor(options: StartMonitorOptions) {
     },
   });
   const live = createLiveFeed();
-  core = createMonitorCore({ config, store, writer, logger, now: startedAt, onChange: (what) => live.publish({ type: what }) });
+  let onAlarmsChanged: () => void = () => undefined;
+  core = createMonitorCore({
+    config,
+    store,
+    writer,
+    logger,
+    now: startedAt,
+    onChange: (what) => {
+      live.publish({ type: what });
+      if (what === 'alarms') onAlarmsChanged();
+    },
+  });
   const monitorCore = core;
 
   let mailFailures = 0;
@@ -219,6 +231,24 @@ export async function startMonitor(options: StartMonitorOptions) {
   }
   timers.push(setInterval(() => void runNotifications(), NOTIFY_TICK_MS));
 
+  // Besides the once-a-second round, wake exactly when the earliest queued notice falls due, so an
+  // alarm's mail is not held up to a second behind its grouping window.
+  let notifyWake: NodeJS.Timeout | null = null;
+  let notifyWakeAt = Infinity;
+  const wakeNotifications = () => {
+    if (stopping) return;
+    const due = nextNoticeDueAt(store.db);
+    if (due === null || due >= notifyWakeAt) return;
+    if (notifyWake) clearTimeout(notifyWake);
+    notifyWakeAt = due;
+    notifyWake = setTimeout(() => {
+      notifyWake = null;
+      notifyWakeAt = Infinity;
+      void runNotifications();
+    }, Math.max(0, due - now()));
+  };
+  onAlarmsChanged = wakeNotifications;
+
   const scheduleMinute = () => {
     const t = now();
     const nextBoundary = Math.floor(t / 60_000) * 60_000 + 60_000;
@@ -295,6 +325,7 @@ export async function startMonitor(options: StartMonitorOptions) {
     stopping = true;
     const deadline = now() + deadlineMs;
     for (const timer of timers) clearTimeout(timer);
+    if (notifyWake) clearTimeout(notifyWake);
     stallGuard.stop();
     await Promise.allSettled(links.map((link) => link.close()));
     monitorCore.flushEdges();
