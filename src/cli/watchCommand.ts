@@ -75,9 +75,8 @@ export const watchCommand: CliCommand = async (argv, io) => {
     rows.push(`pairwatch watch ${port} — link ${linkText}, ${lines} lines — expected period ${periodMs} ms`);
     rows.push('input  band  state     pulses  period ms  jitter ms  last pulse  verdict');
     for (let input = 1; input <= Math.max(1, inputs); input++) {
-      const id = `input-${input}`;
-      const taken = takeQuality(site.loops[id]!);
-      site = { ...site, loops: { ...site.loops, [id]: taken.state } };
+      const taken = takeQuality(site.loops[input - 1]!);
+      site = { ...site, loops: site.loops.map((s, i) => (i === input - 1 ? taken.state : s)) };
       const state = currentLoopState(taken.state);
       const { meanMs, jitterMs } = intervalFigures(taken.quality);
       const last = lastPulseUs(taken.state);

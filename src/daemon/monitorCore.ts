@@ -11,7 +11,7 @@ import type { LoopState } from '../model/loopState.js';
 import { queueNotices } from '../notify/noticeQueue.js';
 import { sessionCounters } from '../protocol/decoderSession.js';
 import { alarmInputsFor, loopsById, raiseFor, type LoopsById } from '../site/alarmInputsFor.js';
-import { indexSite, initialSiteState, stepSite, takeSiteQuality, type SiteIndex } from '../site/siteStep.js';
+import { indexSite, initialSiteState, siteLoopState, stepSite, takeSiteQuality, type SiteIndex } from '../site/siteStep.js';
 import type { SiteEffect, SiteInput, SiteState } from '../site/siteTypes.js';
 import type { DurableWriter } from '../store/createDurableWriter.js';
 import type { EdgeRow } from '../store/edgeRepo.js';
@@ -271,7 +271,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
 
   /** Once a minute: line-quality rows, last pulses, decoder counters, noisy-link check. */
   function minute(now: number, bucketMs: number): void {
-    const taken = takeSiteQuality(site);
+    const taken = takeSiteQuality(index, site);
     site = taken.state;
     const lastPulses = pendingLastPulse;
     pendingLastPulse = new Map();
@@ -360,8 +360,8 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     openAlarms: (): AlarmRecord[] => openAlarms(book),
     isLoopInService: (loopId: string) => !book.outOfService.some((o) => o.loopId === loopId),
     outOfServiceNote: (loopId: string) => book.outOfService.find((o) => o.loopId === loopId)?.note ?? null,
-    classifierState: (loopId: string) => currentLoopState(site.loops[loopId]!),
-    isIntermittent: (loopId: string) => isIntermittent(site.loops[loopId]!),
+    classifierState: (loopId: string) => currentLoopState(siteLoopState(index, site, loopId)!),
+    isIntermittent: (loopId: string) => isIntermittent(siteLoopState(index, site, loopId)!),
     framesTotal: () => framesTotal,
     intervalFigures,
   };

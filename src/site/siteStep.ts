@@ -1,4 +1,4 @@
-import { initialLoopClassifier, stepLoop, takeQuality } from '../classify/index.js';
+import { initialLoopClassifier, stepLoop, takeQuality, type LoopClassifierState } from '../classify/index.js';
 import type { LoopInput } from '../classify/loopTypes.js';
 import { initialDecoderSession, stepDecoderSession } from '../protocol/decoderSession.js';
 import type { DecoderRuntime, SiteEffect, SiteInput, SiteLoop, SiteQuality, SiteState } from './siteTypes.js';
@@ -16,6 +16,7 @@ export interface SiteDefinition {
 
 export interface SiteIndex {
   definition: SiteDefinition;
+  positions: Map<string, number>;
   loopsByDecoder: Map<string, SiteLoop[]>;
   loopByInput: Map<string, SiteLoop>;
   silenceMs: Map<string, number>;
@@ -24,14 +25,17 @@ export interface SiteIndex {
 export function indexSite(definition: SiteDefinition): SiteIndex {
   const loopsByDecoder = new Map<string, SiteLoop[]>();
   const loopByInput = new Map<string, SiteLoop>();
-  for (const loop of definition.loops) {
+  const positions = new Map<string, number>();
+  for (const [index, defined] of definition.loops.entries()) {
+    const loop = { ...defined, index };
+    positions.set(loop.id, index);
     const list = loopsByDecoder.get(loop.decoderId) ?? [];
     list.push(loop);
     loopsByDecoder.set(loop.decoderId, list);
     loopByInput.set(`${loop.decoderId}#${loop.input}`, loop);
   }
   const silenceMs = new Map(definition.decoders.map((d) => [d.id, d.silenceMs]));
-  return { definition, loopsByDecoder, loopByInput, silenceMs };
+  return { definition, positions, loopsByDecoder, loopByInput, silenceMs };
 }
 
 export function initialSiteState(definition: SiteDefinition, nowMs: number): SiteState {
@@ -47,14 +51,14 @@ export function initialSiteState(definition: SiteDefinition, nowMs: number): Sit
       offline: false,
     };
   }
-  const loops: SiteState['loops'] = {};
-  for (const loop of definition.loops) loops[loop.id] = initialLoopClassifier();
-  return { decoders, loops };
+  return { decoders, loops: definition.loops.map(() => initialLoopClassifier()) };
 }
 
 export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, nowMs: number): { state: SiteState; effects: SiteEffect[] } {
   const effects: SiteEffect[] = [];
-  const loops = { ...state.loops };
+  // Copy-on-write: most lines touch one loop, and an array copy is far cheaper than an object spread.
+  let loops = state.loops;
+  let loopsCopied = false;
   const decoders = { ...state.decoders };
 
   const feedLoops = (decoderId: string, loopInput: (loop: SiteLoop) => LoopInput | null, placeAt: (atUs: number | undefined) => number) => {
@@ -64,8 +68,15 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
     }
   };
   const feedLoop = (loop: SiteLoop, li: LoopInput, placeAt: (atUs: number | undefined) => number) => {
-    const result = stepLoop(loops[loop.id]!, li, loop.settings);
-    loops[loop.id] = result.state;
+    const index = loop.index!;
+    const result = stepLoop(loops[index]!, li, loop.settings);
+    if (result.state !== loops[index]) {
+      if (!loopsCopied) {
+        loops = loops.slice();
+        loopsCopied = true;
+      }
+      (loops as LoopClassifierState[])[index] = result.state;
+    }
     for (const effect of result.effects) {
       effects.push({ kind: 'loop', loopId: loop.id, effect, atMs: placeAt('atUs' in effect ? effect.atUs : undefined) });
     }
@@ -153,13 +164,18 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
 }
 
 /** Takes every loop's line-quality counters (once a minute) and resets them. */
-export function takeSiteQuality(state: SiteState): { state: SiteState; qualities: SiteQuality[] } {
-  const loops = { ...state.loops };
+export function takeSiteQuality(index: SiteIndex, state: SiteState): { state: SiteState; qualities: SiteQuality[] } {
   const qualities: SiteQuality[] = [];
-  for (const [loopId, loopState] of Object.entries(state.loops)) {
+  const loops = state.loops.map((loopState, i) => {
     const taken = takeQuality(loopState);
-    loops[loopId] = taken.state;
-    qualities.push({ loopId, quality: taken.quality });
-  }
+    qualities.push({ loopId: index.definition.loops[i]!.id, quality: taken.quality });
+    return taken.state;
+  });
   return { state: { ...state, loops }, qualities };
+}
+
+/** One loop's classifier state by id; undefined for an id the site does not have. */
+export function siteLoopState(index: SiteIndex, state: SiteState, loopId: string): LoopClassifierState | undefined {
+  const position = index.positions.get(loopId);
+  return position === undefined ? undefined : state.loops[position];
 }

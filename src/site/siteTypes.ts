@@ -8,6 +8,8 @@ import type { Band } from '../model/band.js';
 /** A configured loop as the site step sees it. */
 export interface SiteLoop {
   id: string;
+  /** Position in the site definition, filled in by indexSite. */
+  index?: number;
   decoderId: string;
   input: number;
   settings: LoopSettings;
@@ -26,7 +28,8 @@ export interface DecoderRuntime {
 
 export interface SiteState {
   decoders: Record<string, DecoderRuntime>;
-  loops: Record<string, LoopClassifierState>;
+  /** Classifier state per loop, in the order of the site definition (see `siteLoopState`). */
+  loops: readonly LoopClassifierState[];
 }
 
 /** What one step of the site produced, with decoder times already placed on the host clock. */

@@ -120,10 +120,28 @@ export function createDurableWriter(options: DurableWriterOptions): DurableWrite
     for (const item of queue.splice(0, count)) if (item.droppable) droppableInQueue -= 1;
   };
 
+  /**
+   * The connection runs synchronous=FULL, so a committed state change or alarm survives a power cut.
+   * Batches of only high-rate droppable data are committed with NORMAL (no fsync of their own: a power
+   * cut may lose the last of them, never corrupt the file), then FULL is put back for everyone else.
+   */
+  const inTransaction = (droppableOnly: boolean, run: () => void): void => {
+    if (!droppableOnly) {
+      store.transaction(run);
+      return;
+    }
+    store.db.pragma('synchronous = NORMAL');
+    try {
+      store.transaction(run);
+    } finally {
+      store.db.pragma('synchronous = FULL');
+    }
+  };
+
   /** One item alone: true when it left the queue (written or rejected), false on a storage failure. */
   const writeOne = (item: QueuedWork): boolean => {
     try {
-      store.transaction(() => item.work(store));
+      inTransaction(item.droppable, () => item.work(store));
       writtenSinceFailure += 1;
       return true;
     } catch (error) {
@@ -143,9 +161,12 @@ export function createDurableWriter(options: DurableWriterOptions): DurableWrite
     while (queue.length > 0) {
       const batch = queue.slice(0, batchSize);
       try {
-        store.transaction(() => {
-          for (const item of batch) item.work(store);
-        });
+        inTransaction(
+          batch.every((item) => item.droppable),
+          () => {
+            for (const item of batch) item.work(store);
+          },
+        );
         removeFront(batch.length);
         writtenSinceFailure += batch.length;
         continue;
@@ -191,7 +212,7 @@ export function createDurableWriter(options: DurableWriterOptions): DurableWrite
         return queue.includes(item) ? 'queued' : 'written';
       }
       try {
-        store.transaction(() => work(store));
+        inTransaction(item.droppable, () => work(store));
         return 'written';
       } catch (error) {
         const failure = storageFailureOf(error, label);
