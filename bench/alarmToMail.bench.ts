@@ -20,7 +20,7 @@ import { makeTempFolder } from './support/tempFolder.js';
  */
 
 const TARGET_P99_MS = 1_000;
-/** startMonitor's notification round (NOTIFY_TICK_MS), for the note on what bounds the figure. */
+/** startMonitor's periodic notification round (NOTIFY_TICK_MS): a wait that long means mail waited for it. */
 const NOTIFY_ROUND_MS = 1_000;
 
 interface Sample {
@@ -155,15 +155,17 @@ export async function run(opts: BenchOptions): Promise<BenchResult> {
         target: `≤ ${TARGET_P99_MS} ms`,
         met: missing === 0 && p99 <= TARGET_P99_MS,
       },
-      infoRow('of which: wait for the notification round, p99', percentile(waits, 99), 'ms'),
+      infoRow('of which: confirmed → SMTP send starts, p99', percentile(waits, 99), 'ms'),
       infoRow('of which: SMTP exchange (send start → accepted), p99', percentile(exchanges, 99), 'ms'),
       infoRow('alarms measured', delivered.length, 'alarms'),
       ...(missing > 0 ? [infoRow('alarms whose mail never arrived', missing, 'alarms')] : []),
     ],
     notes: [
       `${count} trips over ${loops} loops fed live (1 ms pulse every 500 ms, TICK every 100 ms) into the running monitor; each trip acknowledged once its mail arrived. Grouping window 0; SMTP without TLS or AUTH on 127.0.0.1.`,
-      `startMonitor sends mail from a notification round every ${NOTIFY_ROUND_MS} ms, so a trip waits 0–${NOTIFY_ROUND_MS} ms for the next round before SMTP starts: p99 sits near ${NOTIFY_ROUND_MS} ms plus one SMTP exchange. ` +
-        `Waking the round as soon as a commit queues a notice that is due (instead of waiting for the interval) would take the round out of the figure.`,
+      `"Confirmed → SMTP send starts" is the time until the outbox worker hands the message to the SMTP transport (grouping window 0, digest, outbox commit, the notifier waking up); "SMTP exchange" is a fresh nodemailer connection to the receiver until it accepts the DATA.`,
+      ...(percentile(waits, 99) >= 0.9 * NOTIFY_ROUND_MS
+        ? [`The wait reaches the ${NOTIFY_ROUND_MS} ms notification round: mail waits for the next round. Waking the notifier when a commit queues a notice that is due would take the round out of the figure.`]
+        : []),
       ...(unknownMail > 0 ? [`${unknownMail} received message(s) not found in the outbox by Message-ID.`] : []),
     ],
   };

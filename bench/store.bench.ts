@@ -19,6 +19,8 @@ const TARGET_RATIO = 0.5;
 const STATE_BATCH = 500; // the durable writer's catch-up batch size
 const EDGE_BATCH = 2000; // the monitor's edge batch (EDGE_BATCH_ROWS)
 const START_MS = Date.UTC(2031, 0, 6, 6, 0, 0);
+/** PRAGMA synchronous reads back as a number (SQLite documentation, PRAGMA synchronous). */
+const SYNCHRONOUS_NAMES = ['OFF', 'NORMAL', 'FULL', 'EXTRA'] as const;
 
 export async function run(opts: BenchOptions): Promise<BenchResult> {
   const rounds = opts.smoke ? 1 : 5;
@@ -78,7 +80,7 @@ export async function run(opts: BenchOptions): Promise<BenchResult> {
       ],
       notes: [
         `${rounds} round(s) of ${stateRowsPerRound} state changes, ${edgeRowsPerRound} edges and ${singleRowsPerRound} single-row commits, alternating repo and plain; medians shown.`,
-        `Both files: WAL, synchronous=${String(store.db.pragma('synchronous', { simple: true }))} (copied from the store's connection), tables created from the store's own CREATE statements.`,
+        `Both files: WAL, synchronous=${SYNCHRONOUS_NAMES[store.db.pragma('synchronous', { simple: true }) as number] ?? '?'} (copied from the store's connection), tables created from the store's own CREATE statements.`,
       ],
     };
   } finally {

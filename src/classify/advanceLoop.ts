@@ -1,6 +1,7 @@
 import { clearIntermittentBy, enterState, intermittentClearsAtUs } from './loopRun.js';
 import type { LoopRun } from './loopRun.js';
 import { stateReason } from './stateReason.js';
+import { tripDeadlineUs } from './tripDeadline.js';
 
 /**
  * Fires every window that expires by `toUs` while the band stays as it is, each at its exact expiry
@@ -9,6 +10,10 @@ import { stateReason } from './stateReason.js';
  * While the band is H only the short window runs: whether the span is a heartbeat (which would cancel
  * a trip) is known only when it ends, so a trip or an intermittent clear falling inside it waits for
  * endBand, which dates it exactly all the same.
+ *
+ * Open fires once `toUs` reaches its window's end (held for 200 ms, that instant included); a trip only
+ * once `toUs` is past its deadline, because a pulse starting at the deadline itself still counts (see
+ * tripDeadlineUs).
  */
 export function advanceLoop(run: LoopRun, toUs: number): void {
   const { s, w } = run;
@@ -27,17 +32,18 @@ export function advanceLoop(run: LoopRun, toUs: number): void {
 
     let faultAtUs: number | null = null;
     if (s.band === 'O' && s.state !== 'open') faultAtUs = s.bandSinceUs + w.openUs;
-    if (s.band === 'N' && s.state !== 'tripped' && s.tripFromUs !== null) {
-      // A window that ran out while the band was O only trips once the band is N again.
-      faultAtUs = Math.max(s.tripFromUs + w.tripUs, s.bandSinceUs);
-    }
+    const deadlineUs = s.band === 'N' && s.state !== 'tripped' ? tripDeadlineUs(run) : null;
+    // A window that ran out while the band was O only trips once the band is N again.
+    if (deadlineUs !== null) faultAtUs = Math.max(deadlineUs, s.bandSinceUs);
     const clearsAtUs = intermittentClearsAtUs(run);
 
     if (clearsAtUs !== null && clearsAtUs <= toUs && (faultAtUs === null || clearsAtUs <= faultAtUs)) {
       clearIntermittentBy(run, clearsAtUs);
       continue;
     }
-    if (faultAtUs === null || faultAtUs > toUs) return;
+    if (faultAtUs === null) return;
+    const due = s.band === 'O' ? faultAtUs <= toUs : faultAtUs < toUs;
+    if (!due) return;
     if (s.band === 'O') enterState(run, 'open', faultAtUs, stateReason.open(w.openUs));
     else enterState(run, 'tripped', faultAtUs, stateReason.tripped(w.tripUs));
   }

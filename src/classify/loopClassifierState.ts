@@ -21,8 +21,19 @@ export interface LoopClassifierState {
   highMayBePulse: boolean;
   /** The current H or O span's start is known from an EDGE and no frames were lost since: its width is trustworthy. */
   spanTimed: boolean;
-  /** The trip window runs from here: the last valid pulse, the first input, or the end of an open/short. */
+  /** The current span began with an EDGE, so `bandSinceUs` is a real change of band; unlike spanTimed, lost frames do not clear it. */
+  spanStartKnown: boolean;
+  /** The band the line left when the current span began; null when that was not seen (first band, or edges were missed). */
+  spanFrom: Band | null;
+  /**
+   * The trip window runs from here: the last valid pulse, the first input, the end of an open/short, or a
+   * sign of life seen through lost frames (see acceptSignOfLife).
+   */
   tripFromUs: number | null;
+  /** Frames were lost since the band was last seen (by EDGE or TICK); an EDGE into the same band then means one was missed. */
+  lostSinceSeen: boolean;
+  /** The latest start of a pulse that lost frames may have hidden; extends the trip window, capped (see tripDeadlineUs). */
+  hiddenPulseUs: number | null;
   lastPulseUs: number | null;
   /** Start of the previous valid pulse for interval measurement; null when the chain is broken. */
   previousPulseUs: number | null;
@@ -46,7 +57,11 @@ export function initialLoopClassifier(): LoopClassifierState {
     bandSinceUs: null,
     highMayBePulse: false,
     spanTimed: false,
+    spanStartKnown: false,
+    spanFrom: null,
     tripFromUs: null,
+    hiddenPulseUs: null,
+    lostSinceSeen: false,
     lastPulseUs: null,
     previousPulseUs: null,
     pulsesInRhythm: 0,

@@ -16,8 +16,9 @@ export type LoopInput =
 
 /**
  * Line-quality counters since the last time the shell took them (per-minute rows).
- * Intervals are measured pulse start to pulse start between valid pulses; an interval across lost
- * frames, a decoder restart or a fault state is not measured at all. Every measured interval feeds
+ * Intervals are measured pulse start to pulse start between valid pulses; an interval across frames
+ * lost that could have hidden a pulse (two or more lost while the loop sat at N, or any while it was
+ * away from N), an EDGE missed on this loop, a decoder restart or a fault state is not measured at all. Every measured interval feeds
  * the sums (mean and jitter, see intervalFigures); `outOfTolerance` counts those outside the ratios.
  */
 export interface LineQuality {

@@ -1,12 +1,14 @@
 import { isBand } from '../model/band.js';
 import { advanceLoop } from './advanceLoop.js';
 import { endBand } from './endBand.js';
+import { endMissedSpan } from './endMissedSpan.js';
 import type { LoopClassifierState } from './loopClassifierState.js';
 import { breakRhythm, enterState, startRun } from './loopRun.js';
 import type { LoopRun } from './loopRun.js';
 import type { LoopSettings } from './loopSettings.js';
 import type { LoopEffect, LoopInput } from './loopTypes.js';
 import { loopWindows } from './loopWindows.js';
+import { noteHiddenPulse } from './noteHiddenPulse.js';
 import { stateReason } from './stateReason.js';
 
 /**
@@ -41,10 +43,17 @@ function applyInput(run: LoopRun, input: LoopInput): void {
       const count = Number.isFinite(input.count) ? Math.max(0, Math.floor(input.count)) : 0;
       if (count === 0) return;
       s.quality.lostFrames += count;
-      // Whatever is measured across the gap is untrusted: intervals, and the current span's width.
-      breakRhythm(run);
       s.spanTimed = false;
       s.highMayBePulse = false;
+      s.lostSinceSeen = true;
+      // The count is the decoder's: the frames may as well have been other loops'. One frame cannot hide
+      // a whole pulse of this loop while it sits at N, and if it was one of this loop's EDGEs the next
+      // frame for the loop shows it (an EDGE into the band tracked, or a TICK with another band), which
+      // breaks the chain then. Two frames can hide a whole pulse: the interval across them is untrusted,
+      // and the trip window gets the benefit of the doubt.
+      const mayHidePulse = count >= 2 && s.band === 'N';
+      if (mayHidePulse || s.band !== 'N') breakRhythm(run);
+      if (mayHidePulse && s.nowUs !== null) noteHiddenPulse(run, s.nowUs, Math.max(s.nowUs, input.atUs) - run.w.pulseMinUs);
       return;
     }
     case 'band':
@@ -58,10 +67,18 @@ function applyInput(run: LoopRun, input: LoopInput): void {
       if (s.tripFromUs === null) s.tripFromUs = atUs;
       if (input.band !== s.band) {
         const viaEdge = input.kind === 'band';
-        // An EDGE vouches that the old band held until now; a TICK after lost frames does not.
-        if (viaEdge) advanceLoop(run, atUs);
+        // An EDGE vouches that the old band held until now; a TICK after lost frames does not, and nor
+        // does an EDGE out of H or O after lost frames: the EDGE that ended that span may have been among
+        // them, so a short or open must not be dated inside a span nobody saw. (At N, lost frames can hide
+        // only whole pulses, which the trip deadline already allows for.)
+        if (viaEdge && (s.band === 'N' || !s.lostSinceSeen)) advanceLoop(run, atUs);
         endBand(run, atUs, input.band, viaEdge);
+      } else if (s.lostSinceSeen) {
+        // The same band after a gap need not mean it held (see endMissedSpan). Without a gap it did, and
+        // an EDGE into the band tracked is the decoder contradicting itself: it then changes nothing.
+        endMissedSpan(run, atUs, input.kind === 'band');
       }
+      s.lostSinceSeen = false;
       s.nowUs = atUs;
       advanceLoop(run, atUs);
       return;
@@ -81,7 +98,11 @@ function startOver(run: LoopRun, atUs: number, reason: string): void {
   s.bandSinceUs = null;
   s.highMayBePulse = false;
   s.spanTimed = false;
+  s.spanStartKnown = false;
+  s.spanFrom = null;
   s.tripFromUs = null;
+  s.hiddenPulseUs = null;
+  s.lostSinceSeen = false;
   s.lastPulseUs = null;
   s.faultEntriesUs = [];
   s.awaitingSpeech = false;

@@ -42,7 +42,7 @@ export function parseConfig(text: string, file = '<config>'): SiteConfig {
     // A small alias budget: an "alias bomb" is refused instead of exhausting memory.
     raw = doc.toJS({ maxAliasCount: 200 });
   } catch (err) {
-    throw new ConfigError(file, [{ path: '', message: `YAML: ${(err as Error).message}` }]);
+    throw new ConfigError(file, [{ path: '', message: `YAML: ${(err as Error).message.split('\n')[0]} — check the file's anchors (&name) and aliases (*name)` }]);
   }
   if (raw === null || typeof raw !== 'object' || Array.isArray(raw)) {
     throw new ConfigError(file, [{ path: '', message: 'the file must be a YAML mapping (keys such as site:, decoders:, loops:)' }]);

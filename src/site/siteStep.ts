@@ -152,7 +152,8 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
             break;
           case 'fault':
             effects.push({ kind: 'decoder', decoderId: decoder.id, event, atMs: placeAt(event.decoderUs) });
-            if (event.code === 'OVERRUN') feedLoops(decoder.id, () => ({ kind: 'lost', count: 1, atUs: event.decoderUs }), placeAt);
+            // OVERRUN: an unknown number of edges were lost — enough to have hidden a whole pulse.
+            if (event.code === 'OVERRUN') feedLoops(decoder.id, () => ({ kind: 'lost', count: 2, atUs: event.decoderUs }), placeAt);
             break;
         }
       }

@@ -3,7 +3,7 @@ import { intervalFigures } from '../../src/classify/lineQuality.js';
 import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/loopSettings.js';
 import type { LoopSettings } from '../../src/classify/loopSettings.js';
 import { takeQuality } from '../../src/classify/takeQuality.js';
-import { changes, classify, edge, heartbeat, pulsesAt, us, withTicks } from './loopScript.js';
+import { changes, classify, edge, heartbeat, pulseAt, pulsesAt, us, withTicks } from './loopScript.js';
 
 /* Check values from outside the code: facts of the trade, a datasheet formula, a code requirement. */
 
@@ -51,6 +51,17 @@ describe('reference values', () => {
       expect(trip).toBeDefined();
       // Within half a microsecond, the decoder's timestamp resolution being 1 µs.
       expect(Math.abs(trip!.atUs - (us(lastPulseMs) + oneShotS * 1e6))).toBeLessThanOrEqual(0.5);
+    });
+
+    it('with trip_ms = R·C, a pulse just inside R·C retriggers it: the trip comes R·C after that pulse', () => {
+      // "…until time T, after the last valid retrigger": a retrigger 1 µs before the window runs out
+      // restarts it. (At exactly T the hardware races; pairwatch lets a pulse starting at the deadline
+      // count — tests/classify/lostFrames.test.ts — and still dates a trip at exactly R·C, as above.)
+      const retriggerMs = 2100 + oneShotS * 1000 - 0.001;
+      const { effects } = classify(withTicks([edge('N', 0), ...heartbeat(100, 5), ...pulseAt(retriggerMs)], 6000), settings);
+      expect(changes(effects).map(([to]) => to)).toEqual(['healthy', 'tripped']);
+      const trip = effects.find((e) => e.kind === 'state' && e.to === 'tripped')!;
+      expect(Math.abs(trip.atUs - (us(retriggerMs) + oneShotS * 1e6))).toBeLessThanOrEqual(0.5);
     });
 
     it('with trip_ms = R·C, one lost pulse still does not trip', () => {

@@ -144,23 +144,52 @@ describe('stepLoop: tolerance while healthy', () => {
     expect(takeQuality(state).quality.outOfTolerance).toBe(1);
   });
 
-  it('trips after two lost pulses, at the instant the next one was due (3 periods), then recovers', () => {
+  it('stays healthy over two lost pulses: the next one starts exactly at the deadline (3 periods), in time', () => {
+    // Pulses every 500 ms from 100 ms, the 6th and 7th (2600, 3100 ms) missing: last pulse 2100 ms, and
+    // the next, at 3600 ms, starts at 2100 + 1500 ms — the very instant the window runs out. The node
+    // has the whole window, that instant included (src/classify/tripDeadline.ts).
     const starts = Array.from({ length: 12 }, (_, i) => 100 + i * 500).filter((_, i) => i !== 5 && i !== 6);
-    expect(changes(classify(withTicks([edge('N', 0), ...pulsesAt(starts)], 5500)).effects)).toEqual([
+    const { state, effects } = classify(withTicks([edge('N', 0), ...pulsesAt(starts)], 5750));
+    expect(changes(effects)).toEqual([['healthy', us(1101)]]);
+    expect(pulseEffects(effects).map((p) => p.intervalUs)).toContain(us(1500));
+    expect(takeQuality(state).quality.outOfTolerance).toBe(1);
+  });
+
+  it('trips after three lost pulses, 1500 ms after the last, then recovers', () => {
+    const starts = Array.from({ length: 12 }, (_, i) => 100 + i * 500).filter((_, i) => i < 5 || i > 7);
+    expect(changes(classify(withTicks([edge('N', 0), ...pulsesAt(starts)], 5750)).effects)).toEqual([
       ['healthy', us(1101)],
-      ['tripped', us(3600)], // last pulse 2100 ms + 1500 ms
-      ['healthy', us(4601)], // three fresh pulses: 3600, 4100, 4600 ms
+      ['tripped', us(3600)], // last pulse 2100 ms + 1500 ms; revealed by the TICK at 3750 ms
+      ['healthy', us(5101)], // three fresh pulses: 4100, 4600, 5100 ms
     ]);
   });
 });
 
 describe('stepLoop: lost frames, TICK resync, restart, offline', () => {
-  it('does not trust an interval across lost frames', () => {
-    const inputs = [edge('N', 0), ...heartbeat(100, 2), lost(1, 700), ...heartbeat(1100, 3)];
+  it('does not trust an interval across frames lost that could have hidden a pulse', () => {
+    // Two frames are enough for a whole pulse (its H and its N EDGE).
+    const inputs = [edge('N', 0), ...heartbeat(100, 2), lost(2, 700), ...heartbeat(1100, 3)];
     const { state, effects } = classify(inputs);
     expect(changes(effects)).toEqual([['healthy', us(2101)]]); // 1100, 1600, 2100 ms form the chain
     expect(pulseEffects(effects).map((p) => p.intervalUs)).toEqual([null, us(500), null, us(500), us(500)]);
+    expect(takeQuality(state).quality.lostFrames).toBe(2);
+  });
+
+  it('keeps the pulse chain over a single frame lost while at N (it cannot hide a whole pulse)', () => {
+    // Had the lost frame been this loop's H EDGE, its N EDGE would arrive into N and break the chain then.
+    const inputs = [edge('N', 0), ...heartbeat(100, 2), lost(1, 700), ...heartbeat(1100, 3)];
+    const { state, effects } = classify(inputs);
+    expect(changes(effects)).toEqual([['healthy', us(1101)]]); // 100, 600, 1100 ms
+    expect(pulseEffects(effects).map((p) => p.intervalUs)).toEqual([null, us(500), us(500), us(500), us(500)]);
     expect(takeQuality(state).quality.lostFrames).toBe(1);
+  });
+
+  it('breaks the chain when an EDGE into N shows that the H EDGE before it was lost', () => {
+    const inputs = [edge('N', 0), ...heartbeat(100, 2), lost(1, 1101), edge('N', 1101), ...heartbeat(1600, 3)];
+    const { effects } = classify(inputs);
+    // 100, 600 ms, then the pulse at 1100 ms is seen only by its N EDGE: 1600, 2100, 2600 ms form the chain.
+    expect(changes(effects)).toEqual([['healthy', us(2601)]]);
+    expect(pulseEffects(effects).map((p) => p.intervalUs)).toEqual([null, us(500), null, us(500), us(500)]);
   });
 
   it('adopts the band a TICK reports after the edge was lost, at the TICK time', () => {
