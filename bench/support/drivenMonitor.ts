@@ -53,7 +53,6 @@ export function openDrivenMonitor(config: SiteConfig, startMs: number): DrivenMo
         nextMinuteMs += MINUTE_MS;
       } else {
         core.tick(clock);
-        core.flushEdges();
         if (writer.pending() > 0) writer.flush();
         nextFastMs += FAST_TICK_MS;
       }

@@ -1,6 +1,6 @@
 import { isFaultState } from '../model/loopState.js';
 import type { LoopState } from '../model/loopState.js';
-import type { LoopClassifierState } from './loopClassifierState.js';
+import { copyLoopState, type LoopClassifierState } from './loopClassifierState.js';
 import type { LoopEffect } from './loopTypes.js';
 import type { LoopWindows } from './loopWindows.js';
 
@@ -16,7 +16,7 @@ export interface LoopRun {
 
 export function startRun(state: LoopClassifierState, w: LoopWindows): LoopRun {
   // faultEntriesUs is replaced, never mutated, so sharing it with the caller's state is safe.
-  return { s: { ...state, quality: { ...state.quality } }, w, effects: [] };
+  return { s: copyLoopState(state), w, effects: [] };
 }
 
 /** Forget interval history: the next pulse starts a new chain and reports no interval. */

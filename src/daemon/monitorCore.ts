@@ -49,6 +49,8 @@ export interface MonitorCoreOptions {
 }
 
 const EDGE_BATCH_ROWS = 2000;
+/** Raw edges are high-rate and droppable: one transaction a second (or per 2000 rows) is plenty. */
+const EDGE_FLUSH_MS = 1000;
 const DECODER_FAULT_QUIET_MS = 10 * 60_000;
 /** Bad+lost frames over a minute above which the decoder link counts as noisy (common practice: a few per cent). */
 const NOISY_RATIO_ON = 0.1;
@@ -94,6 +96,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   const noisy = new Set<string>();
   const lastMinuteCounters = new Map<string, { frames: number; bad: number; lost: number }>();
   let edgeBuffer: EdgeRow[] = [];
+  let edgeBufferSinceMs = 0;
   let pendingLastPulse = new Map<string, number>();
   let framesTotal = 0;
 
@@ -163,6 +166,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     for (const effect of effects) {
       switch (effect.kind) {
         case 'edge':
+          if (edgeBuffer.length === 0) edgeBufferSinceMs = now;
           edgeBuffer.push({ decoderId: effect.decoderId, input: effect.input, band: effect.band, decoderUs: effect.decoderUs, at: effect.atMs });
           break;
         case 'loop': {
@@ -256,9 +260,10 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     alarmAction({ kind: 'clear', source: 'system', condition }, now);
   }
 
-  /** Called a few times a second: silence detection, shelf expiry, escalation steps and repeats. */
+  /** Called a few times a second: silence detection, edge batches, shelf expiry, escalation steps and repeats. */
   function tick(now: number): void {
     handle({ kind: 'clock' }, now);
+    if (edgeBuffer.length > 0 && now - edgeBufferSinceMs >= EDGE_FLUSH_MS) flushEdges();
     for (const [decoderId, at] of decoderFaultAt) {
       if (now - at >= DECODER_FAULT_QUIET_MS) {
         decoderFaultAt.delete(decoderId);

@@ -209,7 +209,6 @@ export async function startMonitor(options: StartMonitorOptions) {
   const fast = setInterval(() => {
     const t = now();
     monitorCore.tick(t);
-    monitorCore.flushEdges();
     if (writer.pending() > 0) writer.flush();
   }, FAST_TICK_MS);
   timers.push(fast);
