@@ -1,10 +1,12 @@
 import Database from 'better-sqlite3';
-import { mkdtempSync, openSync, writeSync, closeSync, rmSync } from 'node:fs';
+import { mkdtempSync, openSync, writeSync, closeSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import pino from 'pino';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { parseConfig } from '../../src/config/loadConfig.js';
+import { loadConfig } from '../../src/config/loadConfig.js';
+import { main } from '../../src/cli/main.js';
+import { PassThrough } from 'node:stream';
 import { startMonitor, type Monitor } from '../../src/daemon/startMonitor.js';
 import { startSocatPair, waitFor } from '../ingest/socatPair.js';
 import { startSmtpSink, type SmtpSink } from '../notify/helpers/smtpSink.js';
@@ -20,12 +22,16 @@ describe('monitor end to end: pseudo-terminal → serialport → classifier → 
   let socat: Awaited<ReturnType<typeof startSocatPair>>;
   let smtp: SmtpSink;
   let monitor: Monitor;
+  let configFile: string;
 
   beforeAll(async () => {
     dir = mkdtempSync(join(tmpdir(), 'pairwatch-e2e-'));
     socat = await startSocatPair(dir);
     smtp = await startSmtpSink({ user: 'monitor', pass: 'pw-test' });
-    const config = parseConfig(`
+    configFile = join(dir, 'site.yaml');
+    writeFileSync(
+      configFile,
+      `
 site: { name: "Test Farm", timezone: "Europe/London" }
 decoders: [{ id: main, port: ${socat.a}, inputs: 4 }]
 loops:
@@ -39,7 +45,9 @@ mail:
   group_window: 0s
 storage: { path: ${join(dir, 'site.db')} }
 web: { listen: "127.0.0.1:0" }
-`);
+`,
+    );
+    const config = loadConfig(configFile);
     monitor = await startMonitor({ config, configDir: dir, logger: pino({ level: 'silent' }), listen: false, announce: false });
     await waitFor(() => monitor.core.linkOf('main')?.state === 'connected', 10_000, () => 'the monitor to open the pseudo-terminal');
   });
@@ -110,5 +118,29 @@ web: { listen: "127.0.0.1:0" }
     await waitFor(() => smtp.messages.some((m) => m.inReplyTo === first.messageId && /ann/.test(m.text ?? '')), 15_000, () => 'the acknowledgement mail');
     const ackMail = smtp.messages.find((m) => m.inReplyTo === first.messageId)!;
     expect(ackMail.text).toContain('heater reset');
+  });
+
+  it('a script with a token from `pairwatch token create` reads the states and acknowledges over the API', async () => {
+    const out = new PassThrough();
+    let printed = '';
+    out.on('data', (chunk: Buffer) => (printed += chunk.toString()));
+    const io = { stdout: out, stderr: new PassThrough(), stdin: new PassThrough(), env: {} };
+    expect(await main(['token', 'create', 'night-script', '--role', 'operator', '--config', configFile], io)).toBe(0);
+    const token = printed.trim();
+    const auth = { authorization: `Bearer ${token}` };
+
+    const loops = (await monitor.web.inject({ method: 'GET', url: '/api/v1/loops', headers: auth })).json() as Array<{ id: string; state: string }>;
+    expect(loops.map((l) => [l.id, l.state])).toEqual([
+      ['well-pit', 'tripped'],
+      ['pump-house', 'open'],
+    ]);
+    const alarms = (await monitor.web.inject({ method: 'GET', url: '/api/v1/alarms?status=active', headers: auth })).json() as Array<{ id: number; condition: string; priority: string }>;
+    const open = alarms.find((a) => a.condition === 'open')!;
+    expect(open.priority).toBe('trouble');
+    const acked = await monitor.web.inject({ method: 'POST', url: `/api/v1/alarms/${open.id}/ack`, headers: auth, payload: { note: 'spade through the cable, splicing' } });
+    expect(acked.statusCode).toBe(200);
+    expect(acked.json()).toMatchObject({ state: 'acknowledged', ackedBy: 'token:night-script', note: 'spade through the cable, splicing' });
+    // Without the token: refused.
+    expect((await monitor.web.inject({ method: 'GET', url: '/api/v1/loops' })).statusCode).toBe(401);
   });
 });
