@@ -1,8 +1,8 @@
 import { readFileSync } from 'node:fs';
-import { parseDocument } from 'yaml';
 import type { z } from 'zod';
 import { ConfigError, formatPath, type ConfigProblem } from './configError.js';
 import { crossCheck } from './crossCheck.js';
+import { readYamlMapping } from './readYaml.js';
 import { siteConfigSchema, type SiteConfig } from './schema.js';
 
 /** Turns zod issues into one plain line each, naming the field. */
@@ -25,29 +25,9 @@ export function describeIssues(issues: readonly z.core.$ZodIssue[]): ConfigProbl
 
 /** Parses YAML text into a validated config; throws ConfigError listing every problem. */
 export function parseConfig(text: string, file = '<config>'): SiteConfig {
-  // No YAML 1.1 extras (!!binary, !!set, timestamps): a site config is plain mappings, lists, text and numbers.
-  const doc = parseDocument(text, { prettyErrors: true, uniqueKeys: true, resolveKnownTags: false });
-  const yamlProblems = [...doc.errors, ...doc.warnings.filter((w) => w.code === 'TAG_RESOLVE_FAILED')];
-  if (yamlProblems.length > 0) {
-    throw new ConfigError(
-      file,
-      yamlProblems.map((e) => ({
-        path: e.linePos?.[0] ? `line ${e.linePos[0].line}, column ${e.linePos[0].col}` : '',
-        message: `YAML: ${e.message.split('\n')[0]!.replace(/ at line \d+, column \d+:?$/, '')}`,
-      })),
-    );
-  }
-  let raw: unknown;
-  try {
-    // A small alias budget: an "alias bomb" is refused instead of exhausting memory.
-    raw = doc.toJS({ maxAliasCount: 200 });
-  } catch (err) {
-    throw new ConfigError(file, [{ path: '', message: `YAML: ${(err as Error).message.split('\n')[0]} — check the file's anchors (&name) and aliases (*name)` }]);
-  }
-  if (raw === null || typeof raw !== 'object' || Array.isArray(raw)) {
-    throw new ConfigError(file, [{ path: '', message: 'the file must be a YAML mapping (keys such as site:, decoders:, loops:)' }]);
-  }
-  const result = siteConfigSchema.safeParse(raw);
+  const read = readYamlMapping(text, 'keys such as site:, decoders:, loops:');
+  if (!read.ok) throw new ConfigError(file, read.problems);
+  const result = siteConfigSchema.safeParse(read.value);
   if (!result.success) throw new ConfigError(file, describeIssues(result.error.issues));
   const problems = crossCheck(result.data);
   if (problems.length > 0) throw new ConfigError(file, problems);

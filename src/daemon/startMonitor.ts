@@ -158,6 +158,21 @@ export async function startMonitor(options: StartMonitorOptions) {
     syncMetrics();
     return reply.type(metrics.contentType).send(await metrics.render());
   });
+  // Listen before any timer or decoder link starts, so a port already taken fails the start cleanly.
+  let address: string | null = null;
+  if (options.listen !== false) {
+    const [host, portText] = splitListen(config.web.listen);
+    try {
+      address = await web.listen({ host, port: Number(portText) });
+    } catch (err) {
+      await web.close().catch(() => undefined);
+      store.close();
+      const code = (err as NodeJS.ErrnoException).code;
+      throw Object.assign(new Error(`web.listen: cannot listen on ${config.web.listen}: ${code === 'EADDRINUSE' ? 'the port is already in use (is pairwatch already running?)' : (err as Error).message}`), { code: 'PW_WEB_LISTEN_FAILED' });
+    }
+    logger.info({ address }, `web server listening on ${address}`);
+  }
+
   const stallGuard = createStallGuard({
     onStall: (report) => {
       metrics.countStall(report.activity, report.blockedMs);
@@ -282,11 +297,9 @@ export async function startMonitor(options: StartMonitorOptions) {
 
   const maintenance = () => {
     if (stopping) return;
-    try {
-      void stallGuard.run('maintenance', () => runMaintenance({ config, store, now: now(), logger })).catch((err: unknown) => logger.error({ err }, `daily maintenance failed: ${(err as Error).message}`));
-    } catch (err) {
-      logger.error({ err }, `daily maintenance failed: ${(err as Error).message}`);
-    }
+    stallGuard
+      .run('maintenance', () => runMaintenance({ config, store, now: now(), logger }))
+      .catch((err: unknown) => logger.error({ err }, `daily maintenance failed: ${(err as Error).message}`));
   };
   timers.push(setInterval(maintenance, MAINTENANCE_CHECK_MS));
   timers.push(setTimeout(maintenance, 60_000));
@@ -309,12 +322,6 @@ export async function startMonitor(options: StartMonitorOptions) {
     }),
   );
 
-  let address: string | null = null;
-  if (options.listen !== false) {
-    const [host, portText] = splitListen(config.web.listen);
-    address = await web.listen({ host, port: Number(portText) });
-    logger.info({ address }, `web server listening on ${address}`);
-  }
   if (options.announce !== false) lifecycleMail('started', null);
   logger.info({ site: config.site.name, loops: config.loops.length, decoders: config.decoders.length }, `monitoring ${config.site.name}: ${config.loops.length} loop(s)`);
 

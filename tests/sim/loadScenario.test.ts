@@ -78,3 +78,21 @@ events:
     expect(loadScenario(join(dir, 'ok.yaml')).loops).toHaveLength(1);
   });
 });
+
+describe('scenario files refuse YAML tricks plainly', () => {
+  const refuse = (text: string): string[] => {
+    try {
+      parseScenario(text, 's.yaml');
+    } catch (err) {
+      if (err instanceof ScenarioError) return err.lines();
+      throw err;
+    }
+    throw new Error('accepted');
+  };
+  it('an undefined alias, an alias bomb and !!binary are ScenarioErrors with one short line each', () => {
+    expect(refuse('decoder: *nowhere\n')).toEqual([expect.stringMatching(/^YAML: .*alias.*anchors \(&name\) and aliases \(\*name\)$/)]);
+    const bomb = ['a: &a [1, 1, 1, 1, 1, 1, 1, 1, 1, 1]', 'b: &b [*a, *a, *a, *a, *a, *a, *a, *a, *a, *a]', 'c: &c [*b, *b, *b, *b, *b, *b, *b, *b, *b, *b]', 'd: [*c, *c, *c, *c, *c, *c, *c, *c, *c, *c]', 'decoder: { inputs: 2 }'].join('\n');
+    expect(refuse(bomb)).toHaveLength(1);
+    expect(refuse('decoder: !!binary aGk=\n')).toEqual([expect.stringMatching(/^line 1, column 10: YAML: Unresolved tag/)]);
+  });
+});
