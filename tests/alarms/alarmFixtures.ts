@@ -5,6 +5,7 @@ import type { AlarmRecord } from '../../src/alarms/alarmTypes.js';
 import type { AlarmContext } from '../../src/alarms/alarmInput.js';
 import type { AlarmEffect, NoticeKind } from '../../src/alarms/alarmTypes.js';
 import { policiesFromConfig } from '../../src/alarms/escalationPolicy.js';
+import { sampleAlarm } from '../helpers/sampleAlarm.js';
 
 /** Fake clock origin: an invented winter evening. Every expected time in the tests is T0 plus a hand-written offset. */
 export const T0 = Date.UTC(2026, 11, 1, 20, 0, 0);
@@ -46,28 +47,9 @@ export function issueContext(): AlarmContext {
   return { policies: policiesFromConfig(issueExampleConfig()), maxShelveMs: 24 * HOUR };
 }
 
+/** The shared sample alarm, raised at T0 and not latched. */
 export function alarmRecord(overrides: Partial<AlarmRecord> = {}): AlarmRecord {
-  return {
-    id: 1,
-    source: 'well-pit',
-    loopId: 'well-pit',
-    condition: 'tripped',
-    priority: 'alarm',
-    state: 'unacknowledged',
-    active: true,
-    latched: false,
-    policy: 'default',
-    raisedAt: T0,
-    clearedAt: null,
-    ackedAt: null,
-    ackedBy: null,
-    note: null,
-    shelvedUntil: null,
-    shelveReason: null,
-    closedAt: null,
-    escalation: { stepsDone: 0, repeatsDone: 0, nextAt: null, notified: [] },
-    ...overrides,
-  };
+  return sampleAlarm(T0, overrides);
 }
 
 export type NotifyEffect = Extract<AlarmEffect, { kind: 'notify' }>;

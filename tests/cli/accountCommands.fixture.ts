@@ -1,12 +1,12 @@
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { PassThrough, Readable } from 'node:stream';
-import type { CliCommand, CliIo } from '../../src/cli/cliTypes.js';
+import type { CliCommand } from '../../src/cli/cliTypes.js';
+import { captureCliIo } from '../helpers/captureCliIo.js';
+import { makeTempDir } from '../helpers/tempDir.js';
 
 /** A temp site (config file + database path) and a way to run a CLI command with captured output. */
 export function makeSite(): { dir: string; configFile: string; dbPath: string; cleanup(): void } {
-  const dir = mkdtempSync(join(tmpdir(), 'pairwatch-cli-'));
+  const { dir, cleanup } = makeTempDir('pairwatch-cli-');
   const dbPath = join(dir, 'data', 'site.db');
   const configFile = join(dir, 'site.yaml');
   writeFileSync(
@@ -19,17 +19,11 @@ export function makeSite(): { dir: string; configFile: string; dbPath: string; c
       '',
     ].join('\n'),
   );
-  return { dir, configFile, dbPath, cleanup: () => rmSync(dir, { recursive: true, force: true }) };
+  return { dir, configFile, dbPath, cleanup };
 }
 
 export async function run(command: CliCommand, argv: string[], stdinText = ''): Promise<{ code: number; stdout: string; stderr: string }> {
-  const stdout = new PassThrough();
-  const stderr = new PassThrough();
-  let out = '';
-  let err = '';
-  stdout.on('data', (c: Buffer) => (out += c.toString()));
-  stderr.on('data', (c: Buffer) => (err += c.toString()));
-  const io: CliIo = { stdout, stderr, stdin: Readable.from([Buffer.from(stdinText)]), env: {} };
-  const code = await command(argv, io);
-  return { code, stdout: out, stderr: err };
+  const captured = captureCliIo({ stdin: stdinText });
+  const code = await command(argv, captured.io);
+  return { code, stdout: captured.out(), stderr: captured.err() };
 }

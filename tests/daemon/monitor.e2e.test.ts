@@ -1,6 +1,5 @@
 import Database from 'better-sqlite3';
-import { mkdtempSync, openSync, writeSync, closeSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { openSync, writeSync, closeSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import pino from 'pino';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -8,8 +7,10 @@ import { loadConfig } from '../../src/config/loadConfig.js';
 import { main } from '../../src/cli/main.js';
 import { PassThrough } from 'node:stream';
 import { startMonitor, type Monitor } from '../../src/daemon/startMonitor.js';
-import { startSocatPair, waitFor } from '../ingest/socatPair.js';
-import { startSmtpSink, type SmtpSink } from '../notify/helpers/smtpSink.js';
+import { startSmtpSink, type SmtpSink } from '../helpers/smtpSink.js';
+import { startSocatPair, type SocatPair } from '../helpers/socatPair.js';
+import { waitFor } from '../helpers/waitFor.js';
+import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
 import { wireScript } from '../helpers/wireScript.js';
 
 /**
@@ -18,17 +19,17 @@ import { wireScript } from '../helpers/wireScript.js';
  * Lines carry decoder time, so they are written much faster than real time; classification must not care.
  */
 describe('monitor end to end: pseudo-terminal → serialport → classifier → SQLite → SMTP', () => {
-  let dir: string;
-  let socat: Awaited<ReturnType<typeof startSocatPair>>;
+  let tmp: TempDir;
+  let socat: SocatPair;
   let smtp: SmtpSink;
   let monitor: Monitor;
   let configFile: string;
 
   beforeAll(async () => {
-    dir = mkdtempSync(join(tmpdir(), 'pairwatch-e2e-'));
-    socat = await startSocatPair(dir);
+    tmp = makeTempDir('pairwatch-e2e-');
+    socat = await startSocatPair(tmp.dir);
     smtp = await startSmtpSink({ user: 'monitor', pass: 'pw-test' });
-    configFile = join(dir, 'site.yaml');
+    configFile = join(tmp.dir, 'site.yaml');
     writeFileSync(
       configFile,
       `
@@ -43,12 +44,12 @@ mail:
   from: "pairwatch <monitor@example.org>"
   smtp: { host: 127.0.0.1, port: ${smtp.port}, user: monitor, pass: pw-test }
   group_window: 0s
-storage: { path: ${join(dir, 'site.db')} }
+storage: { path: ${join(tmp.dir, 'site.db')} }
 web: { listen: "127.0.0.1:0" }
 `,
     );
     const config = loadConfig(configFile);
-    monitor = await startMonitor({ config, configDir: dir, logger: pino({ level: 'silent' }), listen: false, announce: false });
+    monitor = await startMonitor({ config, configDir: tmp.dir, logger: pino({ level: 'silent' }), listen: false, announce: false });
     await waitFor(() => monitor.core.linkOf('main')?.state === 'connected', 10_000, () => 'the monitor to open the pseudo-terminal');
   });
 
@@ -56,7 +57,7 @@ web: { listen: "127.0.0.1:0" }
     await monitor?.stop('test over', 3000);
     await smtp?.close();
     await socat?.stop();
-    rmSync(dir, { recursive: true, force: true });
+    tmp?.cleanup();
   });
 
   it('records each state change at its decoder time and mails the alarm and the trouble', async () => {
@@ -76,7 +77,7 @@ web: { listen: "127.0.0.1:0" }
       closeSync(fd);
     }
 
-    const db = new Database(join(dir, 'site.db'), { readonly: true });
+    const db = new Database(join(tmp.dir, 'site.db'), { readonly: true });
     try {
       const changes = () =>
         db.prepare('SELECT loop_id, from_state, to_state, decoder_us FROM state_changes WHERE reason != ? ORDER BY id').all('monitor started') as Array<{

@@ -1,6 +1,4 @@
 import Database from 'better-sqlite3';
-import { mkdtempSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import pino from 'pino';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
@@ -8,19 +6,20 @@ import { parseConfig } from '../../src/config/loadConfig.js';
 import { createMonitorCore, type MonitorCore } from '../../src/daemon/monitorCore.js';
 import { createDurableWriter } from '../../src/store/createDurableWriter.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
+import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
 import { wireScript } from '../helpers/wireScript.js';
 
 const T0 = Date.UTC(2026, 0, 15, 2, 0, 0);
 const MIN = 60_000;
 
 describe('monitor core with fake time and a real SQLite file', () => {
-  let dir: string;
+  let tmp: TempDir;
   let store: Store;
   let core: MonitorCore;
   let clock = T0;
 
   beforeEach(() => {
-    dir = mkdtempSync(join(tmpdir(), 'pairwatch-core-'));
+    tmp = makeTempDir('pairwatch-core-');
     const config = parseConfig(`
 site: { name: "Test Farm" }
 decoders: [{ id: main, port: /dev/null, inputs: 2 }]
@@ -32,17 +31,17 @@ escalation:
     repeat_every: 30m
     max_repeats: 10
 mail: { from: "m <m@example.org>", group_window: 10s }
-storage: { path: ${join(dir, 'site.db')} }
+storage: { path: ${join(tmp.dir, 'site.db')} }
 `);
     clock = T0;
-    store = openStore({ path: join(dir, 'site.db') });
+    store = openStore({ path: join(tmp.dir, 'site.db') });
     const writer = createDurableWriter({ store, onFailing() {}, onRecovered() {}, now: () => clock });
     core = createMonitorCore({ config, store, writer, logger: pino({ level: 'silent' }), now: clock });
     core.linkStatus('main', { state: 'connected' }, clock);
   });
   afterEach(() => {
     store.close();
-    rmSync(dir, { recursive: true, force: true });
+    tmp?.cleanup();
   });
 
   /** Feeds lines, each at host time T0 + its decoder time. */
@@ -56,7 +55,7 @@ storage: { path: ${join(dir, 'site.db')} }
   it('commits the state change, its alarm, the audit row and the queued notice together', () => {
     feed(wireScript(2).hello(0).pulses(1, 100_000, 2_100_000).pulses(2, 100_000, 10_000_000).ticks(0, 4_000_000).build());
     // Read with a second connection: only committed rows are visible to it.
-    const db = new Database(join(dir, 'site.db'), { readonly: true });
+    const db = new Database(join(tmp.dir, 'site.db'), { readonly: true });
     try {
       const change = db.prepare("SELECT at FROM state_changes WHERE loop_id = 'well-pit' AND to_state = 'tripped'").get() as { at: string };
       const alarm = db.prepare("SELECT id, raised_at, state, priority FROM alarms WHERE source = 'well-pit'").get() as { id: number; raised_at: string; state: string; priority: string };

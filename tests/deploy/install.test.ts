@@ -1,20 +1,11 @@
 import { spawnSync } from 'node:child_process';
-import { copyFileSync, cpSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, statSync, writeFileSync, lstatSync, rmSync } from 'node:fs';
+import { copyFileSync, cpSync, mkdirSync, readdirSync, readFileSync, statSync, writeFileSync, lstatSync } from 'node:fs';
 import { createHash } from 'node:crypto';
-import { tmpdir } from 'node:os';
 import { join, relative } from 'node:path';
-import { afterAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
+import { useTempDirs } from '../helpers/tempDir.js';
 
-/** Temp folders made by this file, removed when it is done. */
-const madeDirs: string[] = [];
-function tempDir(prefix: string): string {
-  const dir = mkdtempSync(join(tmpdir(), prefix));
-  madeDirs.push(dir);
-  return dir;
-}
-afterAll(() => {
-  for (const dir of madeDirs) rmSync(dir, { recursive: true, force: true });
-});
+const tempDir = useTempDirs();
 
 const REPO = join(import.meta.dirname, '../..');
 

@@ -1,19 +1,10 @@
 import { execFileSync, spawnSync } from 'node:child_process';
-import { copyFileSync, existsSync, mkdtempSync, readFileSync, writeFileSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { copyFileSync, existsSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { afterAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
+import { useTempDirs } from '../helpers/tempDir.js';
 
-/** Temp folders made by this file, removed when it is done. */
-const madeDirs: string[] = [];
-function tempDir(prefix: string): string {
-  const dir = mkdtempSync(join(tmpdir(), prefix));
-  madeDirs.push(dir);
-  return dir;
-}
-afterAll(() => {
-  for (const dir of madeDirs) rmSync(dir, { recursive: true, force: true });
-});
+const tempDir = useTempDirs();
 
 const UNIT = join(import.meta.dirname, '../../deploy/pairwatch.service');
 

@@ -1,20 +1,11 @@
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, readFileSync, writeFileSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { afterAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { renderRule, udevRuleLine } from '../../src/ops/ports/udevRuleLine.js';
+import { useTempDirs } from '../helpers/tempDir.js';
 
-/** Temp folders made by this file, removed when it is done. */
-const madeDirs: string[] = [];
-function tempDir(prefix: string): string {
-  const dir = mkdtempSync(join(tmpdir(), prefix));
-  madeDirs.push(dir);
-  return dir;
-}
-afterAll(() => {
-  for (const dir of madeDirs) rmSync(dir, { recursive: true, force: true });
-});
+const tempDir = useTempDirs();
 
 const TEMPLATE = join(import.meta.dirname, '../../deploy/99-pairwatch-decoder.rules.in');
 const PLACEHOLDERS = { vendorId: '@VENDOR_ID@', productId: '@PRODUCT_ID@', serialNumber: '@SERIAL@', name: '@NAME@' };

@@ -1,5 +1,3 @@
-import { mkdtempSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { Writable } from 'node:stream';
 import fc from 'fast-check';
@@ -7,6 +5,7 @@ import pino from 'pino';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/config/loadConfig.js';
 import { startMonitor, type Monitor } from '../../src/daemon/startMonitor.js';
+import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
 import { seedApiToken } from './fixtures/apiClient.js';
 import { faultSiteYaml, loopIdOf } from './fixtures/siteYaml.js';
 
@@ -22,24 +21,24 @@ const OPERATOR = `pwt_${'o'.repeat(43)}`;
 const VIEWER = `pwt_${'v'.repeat(43)}`;
 const STACK_LINE = /\n\s+at .+:\d+/;
 
-let tmp: string;
+let tmp: TempDir;
 let monitor: Monitor;
 let alarmId: number;
 const logged: Array<{ level: number; msg: string; err?: { stack?: string } }> = [];
 
 beforeAll(async () => {
-  tmp = mkdtempSync(join(tmpdir(), 'pw-faults-api-'));
-  const dbPath = join(tmp, 'data', 'brackenfold.db');
+  tmp = makeTempDir('pw-faults-api-');
+  const dbPath = join(tmp.dir, 'data', 'brackenfold.db');
   seedApiToken(dbPath, OPERATOR, 'operator', 'fuzz-operator');
   seedApiToken(dbPath, VIEWER, 'viewer', 'fuzz-viewer');
-  const config = parseConfig(faultSiteYaml({ port: join(tmp, 'unplugged'), loops: 3, dbPath }));
+  const config = parseConfig(faultSiteYaml({ port: join(tmp.dir, 'unplugged'), loops: 3, dbPath }));
   const sink = new Writable({
     write(chunk: Buffer, _enc, done) {
       for (const line of chunk.toString('utf8').split('\n')) if (line.trim()) logged.push(JSON.parse(line) as (typeof logged)[number]);
       done();
     },
   });
-  monitor = await startMonitor({ config, configDir: tmp, logger: pino({ level: 'warn' }, sink), listen: false, announce: false });
+  monitor = await startMonitor({ config, configDir: tmp.dir, logger: pino({ level: 'warn' }, sink), listen: false, announce: false });
   // The decoder never speaks: after its silence window it is offline, which puts an alarm on the books.
   monitor.core.tick(Date.now() + 5000);
   alarmId = monitor.core.openAlarms()[0]!.id;
@@ -47,7 +46,7 @@ beforeAll(async () => {
 
 afterAll(async () => {
   await monitor?.stop('test over', 2000);
-  if (tmp) rmSync(tmp, { recursive: true, force: true });
+  tmp?.cleanup();
 });
 
 const junkText = fc.oneof(

@@ -1,11 +1,11 @@
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import fc from 'fast-check';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import { ConfigError } from '../../src/config/configError.js';
 import { parseConfig } from '../../src/config/loadConfig.js';
+import { useTempDirs } from '../helpers/tempDir.js';
 import { FULL_SITE_YAML } from './fixtures/fullSiteYaml.js';
 import { privateBuild } from './fixtures/privateBuild.js';
 
@@ -126,13 +126,13 @@ describe('config fuzzed: every mistake is a clear ConfigError', () => {
 });
 
 describe('pairwatch check-config as a child process, on damaged files', () => {
+  const tempDir = useTempDirs();
   let dir: string;
   let cli: string;
   beforeAll(() => {
     cli = privateBuild().cli;
-    dir = mkdtempSync(join(tmpdir(), 'pw-faults-config-'));
+    dir = tempDir('pw-faults-config-');
   }, 120_000);
-  afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
   const damaged: Array<[string, string]> = [
     ['unknown key', FULL_SITE_YAML.replace('    baud: 115200', '    baud: 115200\n    parity: even')],

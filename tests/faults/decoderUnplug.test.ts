@@ -1,11 +1,11 @@
-import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { mkdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
 import { apiClient, pollUntil, seedApiToken, type ApiClient } from './fixtures/apiClient.js';
 import { killAllDaemons, spawnDaemon, type DaemonProcess } from './fixtures/daemonProcess.js';
 import { privateBuild } from './fixtures/privateBuild.js';
-import { feedPty, killAllSocat, startSocat, type PtyFeeder, type SocatPair } from './fixtures/ptyDecoder.js';
+import { feedPty, killAllSocat, startSocat, type PluggedPort, type PtyFeeder } from './fixtures/ptyDecoder.js';
 import { faultSiteYaml, loopIdOf } from './fixtures/siteYaml.js';
 import { calmScenario } from './fixtures/stormScenario.js';
 
@@ -36,23 +36,23 @@ interface ApiLoop {
   state: string;
 }
 
-let tmp: string;
+let tmp: TempDir;
 let portPath: string;
 let feedPath: string;
 let daemon: DaemonProcess;
 let api: ApiClient;
-let socat: SocatPair | null = null;
+let socat: PluggedPort | null = null;
 let feeder: PtyFeeder | null = null;
 
 beforeAll(async () => {
   privateBuild();
-  tmp = mkdtempSync(join(tmpdir(), 'pw-faults-unplug-'));
-  mkdirSync(join(tmp, 'dev'));
-  portPath = join(tmp, 'dev', 'decoder');
-  feedPath = join(tmp, 'dev', 'feed');
-  const dbPath = join(tmp, 'data', 'brackenfold.db');
+  tmp = makeTempDir('pw-faults-unplug-');
+  mkdirSync(join(tmp.dir, 'dev'));
+  portPath = join(tmp.dir, 'dev', 'decoder');
+  feedPath = join(tmp.dir, 'dev', 'feed');
+  const dbPath = join(tmp.dir, 'data', 'brackenfold.db');
   seedApiToken(dbPath, TOKEN);
-  const configFile = join(tmp, 'site.yaml');
+  const configFile = join(tmp.dir, 'site.yaml');
   writeFileSync(configFile, faultSiteYaml({ port: portPath, loops: LOOPS, dbPath, listen: '127.0.0.1:0' }));
   socat = await startSocat(portPath, feedPath);
   feeder = feedPty(feedPath, calmScenario({ loops: LOOPS, seed: 11 }));
@@ -64,7 +64,7 @@ afterAll(async () => {
   feeder?.stop();
   await killAllDaemons();
   await killAllSocat();
-  if (tmp) rmSync(tmp, { recursive: true, force: true });
+  tmp?.cleanup();
 });
 
 const decoderStatus = async () => (await api.get<ApiDecoder[]>('/api/v1/decoders')).find((d) => d.id === 'yard')?.status;

@@ -1,7 +1,7 @@
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
 import { seedApiToken } from './fixtures/apiClient.js';
 import { bareMessageId, readCommitted, type Committed } from './fixtures/dbSnapshot.js';
 import { startDecoderFeeder, type DecoderFeeder } from './fixtures/decoderFeeder.js';
@@ -24,7 +24,7 @@ const LOOPS = 16;
 const SEED = 0x5eed_0006;
 const TOKEN = `pwt_${'k'.repeat(43)}`;
 
-let tmp: string;
+let tmp: TempDir;
 let dbPath: string;
 let configFile: string;
 let feeder: DecoderFeeder;
@@ -32,11 +32,11 @@ let smtp: SmtpCounter;
 
 beforeAll(async () => {
   privateBuild();
-  tmp = mkdtempSync(join(tmpdir(), 'pw-faults-kill9-'));
-  dbPath = join(tmp, 'data', 'brackenfold.db');
+  tmp = makeTempDir('pw-faults-kill9-');
+  dbPath = join(tmp.dir, 'data', 'brackenfold.db');
   smtp = await startSmtpCounter();
   feeder = await startDecoderFeeder(stormScenario({ loops: LOOPS, seconds: 900, seed: SEED, firstFaultAtMs: 1500 }));
-  configFile = join(tmp, 'site.yaml');
+  configFile = join(tmp.dir, 'site.yaml');
   writeFileSync(
     configFile,
     faultSiteYaml({
@@ -62,7 +62,7 @@ afterAll(async () => {
   await killAllDaemons();
   await feeder?.close();
   await smtp?.close();
-  if (tmp) rmSync(tmp, { recursive: true, force: true });
+  tmp?.cleanup();
 });
 
 const auth = { authorization: `Bearer ${TOKEN}`, 'content-type': 'application/json' };

@@ -1,13 +1,13 @@
-import { mkdtempSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import pino from 'pino';
 import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { parseConfig } from '../../src/config/loadConfig.js';
 import { startMonitor, type Monitor } from '../../src/daemon/startMonitor.js';
+import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
 import { bareMessageId, readCommitted } from './fixtures/dbSnapshot.js';
 import { faultSiteYaml } from './fixtures/siteYaml.js';
-import { startSmtpCounter, unusedPort, type SmtpCounter } from './fixtures/smtpCounter.js';
+import { freePort } from '../helpers/freePort.js';
+import { startSmtpCounter, type SmtpCounter } from './fixtures/smtpCounter.js';
 
 /**
  * The mail server away for a simulated hour, then back. The monitor runs in-process against a real
@@ -24,7 +24,7 @@ const OUTAGE_MS = 3_600_000;
 const FIRST_RETRY_WITHIN_MS = 30_000;
 const RETRY_CAP_MS = 15 * 60_000;
 
-let tmp: string;
+let tmp: TempDir;
 let smtpPort: number;
 let smtp: SmtpCounter | null = null;
 let monitor: Monitor | null = null;
@@ -32,25 +32,25 @@ let nowMs = T0;
 
 beforeAll(async () => {
   vi.useFakeTimers({ toFake: ['setInterval', 'clearInterval'] });
-  tmp = mkdtempSync(join(tmpdir(), 'pw-faults-mail-'));
-  smtpPort = await unusedPort();
+  tmp = makeTempDir('pw-faults-mail-');
+  smtpPort = await freePort();
   const config = parseConfig(
     faultSiteYaml({
       // No decoder is plugged in: it goes offline, which is trouble worth mailing about.
-      port: join(tmp, 'no-decoder-here'),
+      port: join(tmp.dir, 'no-decoder-here'),
       loops: 2,
-      dbPath: join(tmp, 'data', 'brackenfold.db'),
+      dbPath: join(tmp.dir, 'data', 'brackenfold.db'),
       smtpPort,
     }),
   );
-  monitor = await startMonitor({ config, configDir: tmp, logger: pino({ level: 'silent' }), now: () => nowMs, listen: false });
+  monitor = await startMonitor({ config, configDir: tmp.dir, logger: pino({ level: 'silent' }), now: () => nowMs, listen: false });
 });
 
 afterAll(async () => {
   await monitor?.stop('test over', 3000);
   vi.useRealTimers();
   await smtp?.close();
-  if (tmp) rmSync(tmp, { recursive: true, force: true });
+  tmp?.cleanup();
 });
 
 /** One scheduler round as the daemon's timers would run it, at simulated time `nowMs`. */

@@ -1,6 +1,5 @@
 import { execFileSync } from 'node:child_process';
-import { closeSync, mkdirSync, mkdtempSync, openSync, rmSync, writeSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { closeSync, mkdirSync, openSync, rmSync, writeSync } from 'node:fs';
 import { join } from 'node:path';
 import Database from 'better-sqlite3';
 import pino from 'pino';
@@ -9,6 +8,7 @@ import { parseConfig } from '../../src/config/loadConfig.js';
 import { startMonitor, type Monitor } from '../../src/daemon/startMonitor.js';
 import { createSimulator, type Simulator } from '../../src/sim/createSimulator.js';
 import { scenarioSchema } from '../../src/sim/scenarioSchema.js';
+import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
 import { seedApiToken } from './fixtures/apiClient.js';
 import { readCommitted, type Committed } from './fixtures/dbSnapshot.js';
 import { faultSiteYaml, loopIdOf } from './fixtures/siteYaml.js';
@@ -31,7 +31,7 @@ const LOOPS = 4;
 const FREEZE_AT_MS = 600_000; // loop 2's node stops pulsing while the disk is full
 const CUT_AT_MS = 620_000; // loop 3's cable is cut while the disk is full
 
-let tmp: string;
+let tmp: TempDir;
 let disk: string;
 let mountProblem: string | null = null;
 let monitor: Monitor | null = null;
@@ -114,8 +114,8 @@ function fillDisk(path: string): void {
 }
 
 beforeAll(async () => {
-  tmp = mkdtempSync(join(tmpdir(), 'pw-faults-storage-'));
-  disk = join(tmp, 'small-disk');
+  tmp = makeTempDir('pw-faults-storage-');
+  disk = join(tmp.dir, 'small-disk');
   mkdirSync(disk);
   try {
     execFileSync('mount', ['-t', 'tmpfs', '-o', 'size=16m', 'tmpfs', disk], { stdio: 'pipe' });
@@ -127,7 +127,7 @@ beforeAll(async () => {
   smtp = await startSmtpCounter();
   const dbPath = join(disk, 'brackenfold.db');
   seedApiToken(dbPath, TOKEN);
-  const config = parseConfig(faultSiteYaml({ port: join(tmp, 'unplugged'), loops: LOOPS, dbPath, smtpPort: smtp.port, groupWindow: '1s' }));
+  const config = parseConfig(faultSiteYaml({ port: join(tmp.dir, 'unplugged'), loops: LOOPS, dbPath, smtpPort: smtp.port, groupWindow: '1s' }));
   simulator = createSimulator(
     scenarioSchema.parse({
       decoder: { inputs: LOOPS, firmware: 'disk-1', tick_ms: 200 },
@@ -139,7 +139,7 @@ beforeAll(async () => {
       ],
     }),
   );
-  monitor = await startMonitor({ config, configDir: tmp, logger: pino({ level: 'silent' }), now: () => nowMs, listen: false, announce: false });
+  monitor = await startMonitor({ config, configDir: tmp.dir, logger: pino({ level: 'silent' }), now: () => nowMs, listen: false, announce: false });
   // The configured port does not exist; once its link has said so, the test speaks for the decoder.
   const deadline = Date.now() + 10_000;
   while (monitor.core.linkOf('yard')?.state !== 'disconnected' && Date.now() < deadline) await new Promise((r) => setTimeout(r, 10));
@@ -208,7 +208,7 @@ afterAll(async () => {
   vi.useRealTimers();
   await smtp?.close();
   if (mountProblem === null && disk) execFileSync('umount', ['-l', disk]);
-  if (tmp) rmSync(tmp, { recursive: true, force: true });
+  tmp?.cleanup();
 });
 
 describe('storage failure: the disk under the database fills up, then has room again', () => {

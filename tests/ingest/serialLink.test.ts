@@ -1,12 +1,15 @@
-import { closeSync, mkdtempSync, openSync, writeSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { closeSync, openSync, writeSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
 import { createDecoderLink } from '../../src/ingest/createDecoderLink.js';
 import type { DecoderLink, LinkStatus } from '../../src/ingest/linkTypes.js';
 import { refLine } from '../protocol/referenceLine.js';
-import { startSocatPair, waitFor } from './socatPair.js';
+import { startSocatPair } from '../helpers/socatPair.js';
+import { useTempDirs } from '../helpers/tempDir.js';
+import { waitFor } from '../helpers/waitFor.js';
 
+// Before the link cleanups: after-hooks run in reverse, so the folders go once the links are closed.
+const tempDir = useTempDirs('each');
 const cleanups: Array<() => Promise<void> | void> = [];
 afterEach(async () => {
   for (const fn of cleanups.splice(0).reverse()) await fn();
@@ -33,7 +36,7 @@ const last = (statuses: LinkStatus[]) => statuses.at(-1)?.state;
 
 describe('decoder link over a real pseudo-terminal (socat) through serialport', () => {
   it('delivers lines written into the other end, joined across writes', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'pw-serial-'));
+    const dir = tempDir('pw-serial-');
     const pair = await startSocatPair(dir);
     cleanups.push(() => pair.stop());
     const w = watch(pair.a);
@@ -49,7 +52,7 @@ describe('decoder link over a real pseudo-terminal (socat) through serialport', 
   });
 
   it('reports disconnected when the port goes away, and connects again when it comes back', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'pw-serial-'));
+    const dir = tempDir('pw-serial-');
     const first = await startSocatPair(dir);
     const w = watch(first.a);
     await waitFor(() => last(w.statuses) === 'connected', 10_000);
@@ -73,7 +76,7 @@ describe('decoder link over a real pseudo-terminal (socat) through serialport', 
   });
 
   it('a device that does not exist is a plain disconnected reason, not a throw', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'pw-serial-'));
+    const dir = tempDir('pw-serial-');
     const w = watch(join(dir, 'ttyNOPE0'));
     await waitFor(() => last(w.statuses) === 'disconnected', 10_000);
     expect(w.statuses.at(-1)!.reason).toBe(`${join(dir, 'ttyNOPE0')} does not exist (is the decoder plugged in?)`);

@@ -1,13 +1,15 @@
-import { copyFileSync, mkdtempSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { copyFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
 import { createDecoderLink } from '../../src/ingest/createDecoderLink.js';
 import type { DecoderLink, LinkStatus } from '../../src/ingest/linkTypes.js';
 import { parseLine } from '../../src/protocol/parseLine.js';
-import { waitFor } from './socatPair.js';
+import { useTempDirs } from '../helpers/tempDir.js';
+import { waitFor } from '../helpers/waitFor.js';
 
 const demoFile = new URL('../../config/demo.scenario.yaml', import.meta.url).pathname;
+// Before the link cleanups: after-hooks run in reverse, so the folders go once the links are closed.
+const tempDir = useTempDirs('each');
 const cleanups: Array<() => Promise<void>> = [];
 afterEach(async () => {
   for (const fn of cleanups.splice(0)) await fn();
@@ -23,7 +25,7 @@ function watch(port: string, scenarioBaseDir: string) {
 
 describe('decoder link to the in-process simulator (sim:FILE)', () => {
   it('resolves a relative file against scenarioBaseDir and delivers its lines', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'pw-simlink-'));
+    const dir = tempDir('pw-simlink-');
     copyFileSync(demoFile, join(dir, 'demo.scenario.yaml'));
     const w = watch('sim:demo.scenario.yaml', dir);
     await waitFor(() => w.lines.length >= 20, 10_000);
@@ -33,7 +35,7 @@ describe('decoder link to the in-process simulator (sim:FILE)', () => {
   });
 
   it('a broken scenario is a disconnected status naming the field, retried until it is fixed', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'pw-simlink-'));
+    const dir = tempDir('pw-simlink-');
     const file = join(dir, 'site.scenario.yaml');
     writeFileSync(file, 'decoder: { inputs: 0 }\n');
     const w = watch(`sim:${file}`, '/nowhere');
@@ -45,7 +47,7 @@ describe('decoder link to the in-process simulator (sim:FILE)', () => {
   });
 
   it('a missing scenario file says so', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'pw-simlink-'));
+    const dir = tempDir('pw-simlink-');
     const w = watch('sim:missing.yaml', dir);
     await waitFor(() => w.statuses.at(-1)?.state === 'disconnected', 10_000);
     expect(w.statuses.at(-1)!.reason).toContain('cannot read the scenario file: file not found');

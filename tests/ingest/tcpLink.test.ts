@@ -7,7 +7,7 @@ import { OVERLONG_LINE } from '../../src/protocol/lineSplitter.js';
 import { loadScenario } from '../../src/sim/loadScenario.js';
 import { serveSimulator } from '../../src/sim/serveSimulator.js';
 import { refLine } from '../protocol/referenceLine.js';
-import { waitFor } from './socatPair.js';
+import { waitFor } from '../helpers/waitFor.js';
 
 const cleanups: Array<() => Promise<void> | void> = [];
 afterEach(async () => {

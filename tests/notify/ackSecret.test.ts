@@ -1,16 +1,15 @@
-import { afterEach, describe, expect, it } from 'vitest';
-import { chmodSync, mkdtempSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { describe, expect, it } from 'vitest';
+import { chmodSync, readFileSync, statSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { ACK_SECRET_FILE, loadOrCreateAckSecret } from '../../src/notify/ackSecret.js';
 import { NotifyError } from '../../src/notify/notifyError.js';
+import { useTempDirs } from '../helpers/tempDir.js';
 
 describe('loadOrCreateAckSecret', () => {
-  let dir: string;
-  afterEach(() => rmSync(dir, { recursive: true, force: true }));
+  const tempDir = useTempDirs('each');
 
   it('creates a 256-bit key, owner-only, at first start and reads the same key later', () => {
-    dir = mkdtempSync(join(tmpdir(), 'pw-secret-'));
+    const dir = tempDir('pw-secret-');
     const data = join(dir, 'data');
     const first = loadOrCreateAckSecret(data);
     expect(first.length).toBe(32);
@@ -20,7 +19,7 @@ describe('loadOrCreateAckSecret', () => {
   });
 
   it('tightens a key file left readable by others', () => {
-    dir = mkdtempSync(join(tmpdir(), 'pw-secret-'));
+    const dir = tempDir('pw-secret-');
     loadOrCreateAckSecret(dir);
     chmodSync(join(dir, ACK_SECRET_FILE), 0o644);
     loadOrCreateAckSecret(dir);
@@ -28,7 +27,7 @@ describe('loadOrCreateAckSecret', () => {
   });
 
   it('refuses a damaged key file with a code and a plain reason', () => {
-    dir = mkdtempSync(join(tmpdir(), 'pw-secret-'));
+    const dir = tempDir('pw-secret-');
     writeFileSync(join(dir, ACK_SECRET_FILE), 'not a key\n', { mode: 0o600 });
     expect(() => loadOrCreateAckSecret(dir)).toThrow(NotifyError);
     try {

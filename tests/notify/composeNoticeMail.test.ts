@@ -3,29 +3,14 @@ import { CONDITION_TEXT } from '../../src/model/condition.js';
 import { verifyAckToken } from '../../src/notify/ackToken.js';
 import { composeNoticeMail, type NoticeComposeContext } from '../../src/notify/composeNoticeMail.js';
 import type { Digest, NoticeAlarm, PendingNotice } from '../../src/notify/noticeTypes.js';
+import { sampleNoticeAlarm } from '../helpers/sampleAlarm.js';
 import { secret, settings } from './helpers/fixtures.js';
 
 const t0 = Date.parse('2026-12-01T03:00:00.000Z');
 
+/** The shared sample alarm, on no loop unless the test names one (then its source is that loop). */
 function alarm(id: number, partial: Partial<NoticeAlarm>): NoticeAlarm {
-  return {
-    id,
-    source: partial.loopId ?? 'system',
-    loopId: null,
-    condition: 'tripped',
-    priority: 'alarm',
-    state: 'unacknowledged',
-    active: true,
-    raisedAt: t0,
-    clearedAt: null,
-    ackedAt: null,
-    ackedBy: null,
-    note: null,
-    shelvedUntil: null,
-    shelveReason: null,
-    threadMessageId: null,
-    ...partial,
-  };
+  return sampleNoticeAlarm(t0, { id, source: partial.loopId ?? 'system', loopId: null, ...partial });
 }
 
 let noticeId = 0;

@@ -1,21 +1,13 @@
 import { afterEach, describe, expect, it } from 'vitest';
-import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { existsSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { PassThrough } from 'node:stream';
 import { simpleParser } from 'mailparser';
 import { mailTestCommand } from '../../src/cli/mailTestCommand.js';
-import { freePort, startSmtpSink, type SmtpSink } from './helpers/smtpSink.js';
+import { captureCliIo } from '../helpers/captureCliIo.js';
+import { freePort } from '../helpers/freePort.js';
+import { startSmtpSink, type SmtpSink } from '../helpers/smtpSink.js';
+import { useTempDirs } from '../helpers/tempDir.js';
 
-function io(env: NodeJS.ProcessEnv = {}) {
-  const stdout = new PassThrough();
-  const stderr = new PassThrough();
-  const out: string[] = [];
-  const err: string[] = [];
-  stdout.on('data', (chunk: Buffer) => out.push(chunk.toString()));
-  stderr.on('data', (chunk: Buffer) => err.push(chunk.toString()));
-  return { io: { stdout, stderr, stdin: new PassThrough(), env }, out: () => out.join(''), err: () => err.join('') };
-}
 
 function writeConfig(dir: string, mail: string): string {
   const file = join(dir, 'site.yaml');
@@ -33,17 +25,16 @@ ${mail}
   return file;
 }
 
-let dir: string | undefined;
+const tempDir = useTempDirs('each');
 let sink: SmtpSink | undefined;
 afterEach(async () => {
   await sink?.close();
-  if (dir) rmSync(dir, { recursive: true, force: true });
-  dir = sink = undefined;
+  sink = undefined;
 });
 
 describe('pairwatch mail-test', () => {
   it('sends a test message through SMTP and prints the server reply', async () => {
-    dir = mkdtempSync(join(tmpdir(), 'pw-mailtest-'));
+    const dir = tempDir('pw-mailtest-');
     sink = await startSmtpSink();
     const config = writeConfig(
       dir,
@@ -51,7 +42,7 @@ describe('pairwatch mail-test', () => {
   from: "pairwatch <monitor@ridgeway.example>"
   smtp: { host: 127.0.0.1, port: ${sink.port}, user: monitor, pass_env: PW_TEST_PASS }`,
     );
-    const run = io({ PW_TEST_PASS: 's3cret-pass' });
+    const run = captureCliIo({ env: { PW_TEST_PASS: 's3cret-pass' } });
     const code = await mailTestCommand(['ann@ridgeway.example', '--config', config, '--verbose'], run.io);
     expect(run.err()).toBe('');
     expect(code).toBe(0);
@@ -64,9 +55,9 @@ describe('pairwatch mail-test', () => {
   });
 
   it('without SMTP settings writes an .eml into the data folder and prints its path', async () => {
-    dir = mkdtempSync(join(tmpdir(), 'pw-mailtest-'));
+    const dir = tempDir('pw-mailtest-');
     const config = writeConfig(dir, '');
-    const run = io();
+    const run = captureCliIo();
     expect(await mailTestCommand(['ann@ridgeway.example', '--config', config], run.io)).toBe(0);
     const path = /written to (\S+\.eml)/.exec(run.out())?.[1];
     expect(path?.startsWith(join(dir, 'data', 'outbox-mail'))).toBe(true);
@@ -76,33 +67,33 @@ describe('pairwatch mail-test', () => {
   });
 
   it('a server that is down fails with exit 1 and one plain line, no stack trace', async () => {
-    dir = mkdtempSync(join(tmpdir(), 'pw-mailtest-'));
+    const dir = tempDir('pw-mailtest-');
     const port = await freePort();
     const config = writeConfig(dir, `mail:\n  from: "pairwatch <monitor@ridgeway.example>"\n  smtp: { host: 127.0.0.1, port: ${port}, timeout: 5s }`);
-    const run = io();
+    const run = captureCliIo();
     expect(await mailTestCommand(['ann@ridgeway.example', '--config', config], run.io)).toBe(1);
     expect(run.err()).toBe(`mail-test failed (PW_MAIL_SEND_FAILED): cannot connect to 127.0.0.1:${port} (connection refused)\n`);
   });
 
   it('a bad config prints each problem with its path and exits 2', async () => {
-    dir = mkdtempSync(join(tmpdir(), 'pw-mailtest-'));
+    const dir = tempDir('pw-mailtest-');
     const config = writeConfig(dir, 'mail:\n  from: "x <a@b.example>"\n  smtp: { host: 127.0.0.1, prot: 25 }');
-    const run = io();
+    const run = captureCliIo();
     expect(await mailTestCommand(['ann@ridgeway.example', '--config', config], run.io)).toBe(2);
     expect(run.err()).toContain('mail.smtp.prot: unknown key');
     expect(run.err()).not.toMatch(/\n\s+at /);
   });
 
   it('an unset pass_env variable is named, exit 2', async () => {
-    dir = mkdtempSync(join(tmpdir(), 'pw-mailtest-'));
+    const dir = tempDir('pw-mailtest-');
     const config = writeConfig(dir, 'mail:\n  from: "x <a@b.example>"\n  smtp: { host: 127.0.0.1, user: u, pass_env: PW_MISSING }');
-    const run = io();
+    const run = captureCliIo();
     expect(await mailTestCommand(['ann@ridgeway.example', '--config', config], run.io)).toBe(2);
     expect(run.err()).toBe('PW_MAIL_PASS_MISSING: mail.smtp.pass_env: the environment variable PW_MISSING is not set\n');
   });
 
   it.each([[[]], [['not-an-address']], [['a@b.example', 'extra']], [['--nope']]])('bad usage %j exits 2 with the usage line', async (argv) => {
-    const run = io();
+    const run = captureCliIo();
     expect(await mailTestCommand(argv, run.io)).toBe(2);
     expect(run.err()).toMatch(/mail-test/);
   });

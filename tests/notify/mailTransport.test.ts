@@ -1,13 +1,14 @@
 import { afterEach, describe, expect, it } from 'vitest';
-import { mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { readdirSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { simpleParser } from 'mailparser';
 import { MailSendError } from '../../src/notify/mailSendError.js';
 import { createDropFolderTransport, createSmtpTransport, type MailTransport, type SmtpConfig } from '../../src/notify/mailTransport.js';
 import { NotifyError } from '../../src/notify/notifyError.js';
 import type { OutboxMessage } from '../../src/notify/outboxMessage.js';
-import { freePort, startSmtpSink, type SmtpSink } from './helpers/smtpSink.js';
+import { freePort } from '../helpers/freePort.js';
+import { startSmtpSink, type SmtpSink } from '../helpers/smtpSink.js';
+import { useTempDirs } from '../helpers/tempDir.js';
 
 const message: OutboxMessage = {
   messageId: '<transport-test-1@pairwatch.ridgeway.example>',
@@ -38,14 +39,13 @@ const smtp = (port: number, extra: Partial<SmtpConfig> = {}): SmtpConfig => ({
   ...extra,
 });
 
+const tempDir = useTempDirs('each');
 let sink: SmtpSink | undefined;
 let transport: MailTransport | undefined;
-let dir: string | undefined;
 afterEach(async () => {
   transport?.close();
   await sink?.close();
-  if (dir) rmSync(dir, { recursive: true, force: true });
-  sink = transport = dir = undefined;
+  sink = transport = undefined;
 });
 
 describe('createSmtpTransport', () => {
@@ -115,7 +115,7 @@ describe('createSmtpTransport', () => {
 
 describe('createDropFolderTransport', () => {
   it('writes an RFC 5322 .eml file with CRLF line ends that a mail parser reads back whole', async () => {
-    dir = mkdtempSync(join(tmpdir(), 'pw-eml-'));
+    const dir = tempDir('pw-eml-');
     transport = createDropFolderTransport(join(dir, 'outbox-mail'));
     const result = await transport.send(message, { date: created });
     expect(result.location).toBeDefined();
@@ -132,7 +132,7 @@ describe('createDropFolderTransport', () => {
   });
 
   it('a retried message overwrites its own file instead of adding a second', async () => {
-    dir = mkdtempSync(join(tmpdir(), 'pw-eml-'));
+    const dir = tempDir('pw-eml-');
     transport = createDropFolderTransport(dir);
     await transport.send(message, { date: created });
     await transport.send(message, { date: created });
@@ -141,7 +141,7 @@ describe('createDropFolderTransport', () => {
   });
 
   it('verify() creates the folder and says where mail goes', async () => {
-    dir = mkdtempSync(join(tmpdir(), 'pw-eml-'));
+    const dir = tempDir('pw-eml-');
     transport = createDropFolderTransport(join(dir, 'new'));
     expect(await transport.verify()).toEqual({ ok: true, detail: `mail is written as .eml files to ${join(dir, 'new')}` });
   });

@@ -8,7 +8,8 @@ import { silentLogger } from '../../src/notify/notifyLogger.js';
 import { getOutboxRowByMessageId } from '../../src/store/outboxRepo.js';
 import { insertAlarm, openTestDb, type TestDb } from './helpers/notifyDb.js';
 import { settings } from './helpers/fixtures.js';
-import { freePort, startSmtpSink, type SmtpSink } from './helpers/smtpSink.js';
+import { freePort } from '../helpers/freePort.js';
+import { startSmtpSink, type SmtpSink } from '../helpers/smtpSink.js';
 
 const t0 = Date.parse('2026-12-01T03:00:00.000Z');
 // The spec's promise: first retry within 30 s, capped at 15 min. The config defaults (15 s, 15 min) sit inside it.

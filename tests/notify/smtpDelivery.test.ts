@@ -9,7 +9,7 @@ import { createOutboxWorker } from '../../src/notify/outboxWorker.js';
 import { silentLogger } from '../../src/notify/notifyLogger.js';
 import { insertAlarm, openTestDb, updateAlarm, type TestDb } from './helpers/notifyDb.js';
 import { secret, settings } from './helpers/fixtures.js';
-import { startSmtpSink, type SmtpSink } from './helpers/smtpSink.js';
+import { startSmtpSink, type SmtpSink } from '../helpers/smtpSink.js';
 
 const t0 = Date.parse('2026-12-01T03:00:00.000Z');
 const WINDOW = 10_000;

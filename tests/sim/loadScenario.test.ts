@@ -1,9 +1,11 @@
-import { mkdtempSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { loadScenario, parseScenario } from '../../src/sim/loadScenario.js';
 import { ScenarioError } from '../../src/sim/scenarioError.js';
+import { useTempDirs } from '../helpers/tempDir.js';
+
+const tempDir = useTempDirs();
 
 function problems(text: string): string[] {
   try {
@@ -72,7 +74,7 @@ events:
   it('reports YAML errors with their place, and files it cannot read', () => {
     expect(problems('decoder: { inputs: 4\n')[0]).toMatch(/^line \d+, column \d+: YAML: /);
     expect(problems('- just a list\n')).toEqual(['the file must be a YAML mapping (keys decoder:, loops:, events:)']);
-    const dir = mkdtempSync(join(tmpdir(), 'pw-scn-'));
+    const dir = tempDir('pw-scn-');
     expect(() => loadScenario(join(dir, 'missing.yaml'))).toThrow(/cannot read the scenario file: file not found/);
     writeFileSync(join(dir, 'ok.yaml'), BASE);
     expect(loadScenario(join(dir, 'ok.yaml')).loops).toHaveLength(1);

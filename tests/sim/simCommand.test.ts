@@ -1,31 +1,22 @@
-import { mkdtempSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { PassThrough } from 'node:stream';
 import { describe, expect, it } from 'vitest';
-import type { CliIo } from '../../src/cli/cliTypes.js';
 import { simCommand } from '../../src/cli/simCommand.js';
 import { parseLine } from '../../src/protocol/parseLine.js';
 import { createSimulator } from '../../src/sim/createSimulator.js';
 import { loadScenario } from '../../src/sim/loadScenario.js';
+import { captureCliIo } from '../helpers/captureCliIo.js';
+import { useTempDirs } from '../helpers/tempDir.js';
+
+const tempDir = useTempDirs();
 
 const demoFile = new URL('../../config/demo.scenario.yaml', import.meta.url).pathname;
 
-function io() {
-  const stdout = new PassThrough();
-  const stderr = new PassThrough();
-  let out = '';
-  let err = '';
-  stdout.on('data', (c: Buffer) => (out += c.toString()));
-  stderr.on('data', (c: Buffer) => (err += c.toString()));
-  const cli: CliIo = { stdout, stderr, stdin: new PassThrough(), env: {} };
-  return { cli, out: () => out, err: () => err };
-}
 
 describe('pairwatch sim', () => {
   it('writes the scenario as protocol lines to stdout for --duration of simulated time', async () => {
-    const t = io();
-    const code = await simCommand([demoFile, '--duration', '5s', '--speed', '500'], t.cli);
+    const t = captureCliIo();
+    const code = await simCommand([demoFile, '--duration', '5s', '--speed', '500'], t.io);
     expect(code).toBe(0);
     const lines = t.out().split('\n');
     expect(lines.pop()).toBe('');
@@ -41,19 +32,19 @@ describe('pairwatch sim', () => {
       [[demoFile, '--duration', 'long'], '--duration: "long" is not a duration'],
       [[demoFile, '--listen', 'localhost:7000'], '--listen: "localhost:7000" must be tcp://HOST:PORT'],
     ] as const) {
-      const t = io();
-      expect(await simCommand([...args], t.cli)).toBe(2);
+      const t = captureCliIo();
+      expect(await simCommand([...args], t.io)).toBe(2);
       expect(t.err()).toContain(message);
       expect(t.err()).not.toMatch(/\n\s+at /); // no stack trace
     }
   });
 
   it('prints each scenario problem with its field and exits 2', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'pw-simcmd-'));
+    const dir = tempDir('pw-simcmd-');
     const file = join(dir, 'bad.yaml');
     writeFileSync(file, 'decoder: { inputs: 2 }\nloops:\n  - { input: 5 }\nevents:\n  - { at: 1s, action: cut, input: 5, colour: red }\n');
-    const t = io();
-    expect(await simCommand([file], t.cli)).toBe(2);
+    const t = captureCliIo();
+    expect(await simCommand([file], t.io)).toBe(2);
     expect(t.err()).toContain(`${file}: loops[0].input: 5 is past the decoder's 2 inputs`);
     expect(t.err()).toContain(`${file}: events[0].colour: unknown key`);
   });
@@ -63,9 +54,9 @@ describe('pairwatch sim', () => {
     const blocker = createServer();
     await new Promise<void>((r) => blocker.listen(0, '127.0.0.1', () => r()));
     const port = (blocker.address() as { port: number }).port;
-    const t = io();
+    const t = captureCliIo();
     try {
-      expect(await simCommand([demoFile, '--listen', `tcp://127.0.0.1:${port}`], t.cli)).toBe(1);
+      expect(await simCommand([demoFile, '--listen', `tcp://127.0.0.1:${port}`], t.io)).toBe(1);
       expect(t.err()).toContain('the port is already in use');
     } finally {
       blocker.close();

@@ -5,7 +5,8 @@ import { siteConfigSchema } from '../../src/config/schema.js';
 import { applyRetention, type RetentionReport } from '../../src/store/applyRetention.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
 import { generateYear, type YearPlan, type YearTotals } from './generateYear.js';
-import { makeTempDir, snapshotTables } from './storeTestKit.js';
+import { makeTempDir } from '../helpers/tempDir.js';
+import { snapshotTables } from './storeTestKit.js';
 
 const DAY = 86_400_000;
 const HOUR = 3_600_000;
@@ -54,7 +55,7 @@ describe('applyRetention on a generated year for two loops', () => {
   let emptyBytes: number;
 
   beforeAll(() => {
-    tmp = makeTempDir();
+    tmp = makeTempDir('pw-store-');
     const empty = openStore({ path: join(tmp.dir, 'empty.db') });
     emptyBytes = statSync(join(tmp.dir, 'empty.db')).size;
     empty.close();

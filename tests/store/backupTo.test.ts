@@ -9,7 +9,8 @@ import { backupFileTo } from '../../src/store/backupFileTo.js';
 import { backupTo } from '../../src/store/backupTo.js';
 import { checkPairwatchDatabase } from '../../src/store/checkPairwatchDatabase.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
-import { T0, makeAlarm, makeTempDir, snapshotTables } from './storeTestKit.js';
+import { makeTempDir } from '../helpers/tempDir.js';
+import { T0, makeAlarm, snapshotTables } from './storeTestKit.js';
 
 const childScript = fileURLToPath(new URL('./backupWriterChild.mjs', import.meta.url));
 
@@ -33,7 +34,7 @@ describe('backupTo', () => {
   let tmp: ReturnType<typeof makeTempDir>;
   let store: Store;
   beforeEach(() => {
-    tmp = makeTempDir();
+    tmp = makeTempDir('pw-store-');
     store = openStore({ path: join(tmp.dir, 'pw.db') });
     store.loopStatus.ensureLoops(['well-pit', 'calf-shed'], T0);
     store.alarms.upsert(makeAlarm());

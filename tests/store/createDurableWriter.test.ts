@@ -7,7 +7,8 @@ import { createDurableWriter, type DurableWriterOptions } from '../../src/store/
 import type { EdgeRow } from '../../src/store/edgeRepo.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
 import type { StorageFailure } from '../../src/store/storageFailure.js';
-import { T0, makeTempDir } from './storeTestKit.js';
+import { makeTempDir } from '../helpers/tempDir.js';
+import { T0 } from './storeTestKit.js';
 
 /** Records every callback, with a fake clock the test moves by hand. */
 function harness(store: Store, extra: Partial<DurableWriterOptions> = {}) {
@@ -35,7 +36,7 @@ describe('createDurableWriter: queue rules (storage errors injected at the trans
   let diskFull = false;
   let flaky: Store;
   beforeEach(() => {
-    tmp = makeTempDir();
+    tmp = makeTempDir('pw-store-');
     real = openStore({ path: join(tmp.dir, 'pw.db') });
     diskFull = false;
     // The error SQLite reports for a full disk (extended result code name as better-sqlite3 sets it).
@@ -130,7 +131,7 @@ describe('createDurableWriter against a real full disk (a 2 MB tmpfs)', () => {
   let mounted: string | null;
   let store: Store | null;
   beforeEach(() => {
-    tmp = makeTempDir();
+    tmp = makeTempDir('pw-store-');
     mountDir = join(tmp.dir, 'small-disk');
     mkdirSync(mountDir);
     store = null;
@@ -185,7 +186,7 @@ describe('createDurableWriter against a real full disk (a 2 MB tmpfs)', () => {
 
 describe('createDurableWriter against a real lock held by another connection', () => {
   it('queues on SQLITE_BUSY after the busy timeout and writes once the lock is released', () => {
-    const tmp = makeTempDir();
+    const tmp = makeTempDir('pw-store-');
     const store = openStore({ path: join(tmp.dir, 'pw.db'), busyTimeoutMs: 50 });
     const other = new Database(store.path);
     try {
@@ -206,7 +207,7 @@ describe('createDurableWriter against a real lock held by another connection', (
 
 describe('createDurableWriter against files made unwritable (chattr +i on the database and its WAL)', () => {
   it('queues on the write error and writes everything once the files are writable again', (ctx) => {
-    const tmp = makeTempDir();
+    const tmp = makeTempDir('pw-store-');
     const store = openStore({ path: join(tmp.dir, 'pw.db') });
     // Only the database and its WAL: SQLite maps the WAL index (-shm) into memory, and an immutable
     // mapping would kill the process with SIGBUS rather than return an error.

@@ -3,7 +3,7 @@ import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { dailyBackup, dailyBackupName } from '../../src/store/dailyBackup.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
-import { makeTempDir } from './storeTestKit.js';
+import { makeTempDir } from '../helpers/tempDir.js';
 
 const DAY = 86_400_000;
 
@@ -11,7 +11,7 @@ describe('dailyBackup', () => {
   let tmp: ReturnType<typeof makeTempDir>;
   let store: Store;
   beforeEach(() => {
-    tmp = makeTempDir();
+    tmp = makeTempDir('pw-store-');
     store = openStore({ path: join(tmp.dir, 'pw.db') });
   });
   afterEach(() => {

@@ -1,7 +1,7 @@
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { openStore, type Store } from '../../src/store/openStore.js';
-import { makeTempDir } from './storeTestKit.js';
+import { makeTempDir } from '../helpers/tempDir.js';
 
 const H = 3_600_000;
 const DAY0 = Date.UTC(2026, 1, 1); // 2026-02-01T00:00Z
@@ -10,7 +10,7 @@ describe('decoderSessionRepo', () => {
   let tmp: ReturnType<typeof makeTempDir>;
   let store: Store;
   beforeEach(() => {
-    tmp = makeTempDir();
+    tmp = makeTempDir('pw-store-');
     store = openStore({ path: join(tmp.dir, 'pw.db') });
   });
   afterEach(() => {

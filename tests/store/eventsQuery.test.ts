@@ -3,7 +3,8 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import type { TimelineEvent } from '../../src/store/eventsQuery.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
 import { isStoreError } from '../../src/store/storeError.js';
-import { T0, makeAlarm, makeTempDir } from './storeTestKit.js';
+import { makeTempDir } from '../helpers/tempDir.js';
+import { T0, makeAlarm } from './storeTestKit.js';
 
 function allPages(store: Store, query: Omit<Parameters<Store['events']['list']>[0], 'cursor'>): TimelineEvent[] {
   const out: TimelineEvent[] = [];
@@ -21,7 +22,7 @@ describe('eventsQuery', () => {
   let tmp: ReturnType<typeof makeTempDir>;
   let store: Store;
   beforeEach(() => {
-    tmp = makeTempDir();
+    tmp = makeTempDir('pw-store-');
     store = openStore({ path: join(tmp.dir, 'pw.db') });
     // A small night on the farm: the well pit trips, the alarm is raised at the same instant and acknowledged;
     // the dairy loop's cable is cut and repaired; somebody takes the loft out of service.

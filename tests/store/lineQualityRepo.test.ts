@@ -3,7 +3,7 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import type { LineQuality } from '../../src/classify/loopTypes.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
 import { summarizeLineQuality } from '../../src/store/summarizeLineQuality.js';
-import { makeTempDir } from './storeTestKit.js';
+import { makeTempDir } from '../helpers/tempDir.js';
 
 const MIN = 60_000;
 const START = Date.UTC(2026, 2, 1, 12, 0); // 2026-03-01T12:00Z
@@ -33,7 +33,7 @@ describe('lineQualityRepo', () => {
   let tmp: ReturnType<typeof makeTempDir>;
   let store: Store;
   beforeEach(() => {
-    tmp = makeTempDir();
+    tmp = makeTempDir('pw-store-');
     store = openStore({ path: join(tmp.dir, 'pw.db') });
   });
   afterEach(() => {

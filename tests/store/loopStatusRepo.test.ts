@@ -1,7 +1,8 @@
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { openStore, type Store } from '../../src/store/openStore.js';
-import { T0, makeTempDir } from './storeTestKit.js';
+import { makeTempDir } from '../helpers/tempDir.js';
+import { T0 } from './storeTestKit.js';
 
 // RFC 3339 §5.6 date-time, restricted to the UTC "Z" form with milliseconds that the store writes.
 const RFC3339_UTC = /^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}:\d{2}\.\d{3}Z$/;
@@ -10,7 +11,7 @@ describe('loopStatusRepo', () => {
   let tmp: ReturnType<typeof makeTempDir>;
   let store: Store;
   beforeEach(() => {
-    tmp = makeTempDir();
+    tmp = makeTempDir('pw-store-');
     store = openStore({ path: join(tmp.dir, 'pw.db') });
   });
   afterEach(() => {

@@ -7,7 +7,7 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { openDatabase } from '../../src/store/openDatabase.js';
 import { defaultMigrationsDir, findPackageRoot } from '../../src/store/packageRoot.js';
 import { isStoreError } from '../../src/store/storeError.js';
-import { makeTempDir } from './storeTestKit.js';
+import { makeTempDir } from '../helpers/tempDir.js';
 
 const sha256 = (file: string): string => createHash('sha256').update(readFileSync(file)).digest('hex');
 
@@ -24,7 +24,7 @@ describe('openDatabase', () => {
   let tmp: ReturnType<typeof makeTempDir>;
   let migrationsDir: string;
   beforeEach(() => {
-    tmp = makeTempDir();
+    tmp = makeTempDir('pw-store-');
     // A private copy of the real migrations, so tests can add a newer one.
     migrationsDir = join(tmp.dir, 'migrations');
     mkdirSync(migrationsDir);

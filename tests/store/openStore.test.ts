@@ -5,7 +5,7 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { openStore } from '../../src/store/openStore.js';
 import { isStoreError } from '../../src/store/storeError.js';
 import { lockFileFor } from '../../src/store/storeLock.js';
-import { makeTempDir } from './storeTestKit.js';
+import { makeTempDir } from '../helpers/tempDir.js';
 
 /** The pid of a process that has certainly exited. */
 function deadPid(): number {
@@ -17,7 +17,7 @@ describe('openStore', () => {
   let tmp: ReturnType<typeof makeTempDir>;
   let path: string;
   beforeEach(() => {
-    tmp = makeTempDir();
+    tmp = makeTempDir('pw-store-');
     path = join(tmp.dir, 'pw.db');
   });
   afterEach(() => tmp.cleanup());

@@ -8,7 +8,8 @@ import { backupTo } from '../../src/store/backupTo.js';
 import { openStore } from '../../src/store/openStore.js';
 import { restoreFrom } from '../../src/store/restoreFrom.js';
 import { lockFileFor } from '../../src/store/storeLock.js';
-import { T0, makeAlarm, makeTempDir, snapshotTables } from './storeTestKit.js';
+import { makeTempDir } from '../helpers/tempDir.js';
+import { T0, makeAlarm, snapshotTables } from './storeTestKit.js';
 
 const sha256 = (file: string): string => createHash('sha256').update(readFileSync(file)).digest('hex');
 
@@ -47,7 +48,7 @@ describe('restoreFrom', () => {
   let live: string;
   let backup: string;
   beforeEach(async () => {
-    tmp = makeTempDir();
+    tmp = makeTempDir('pw-store-');
     live = join(tmp.dir, 'data', 'pairwatch.db');
     backup = join(tmp.dir, 'pairwatch-20260115.db');
     populate(live);

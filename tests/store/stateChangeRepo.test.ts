@@ -1,13 +1,14 @@
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { openStore, type Store } from '../../src/store/openStore.js';
-import { T0, makeTempDir } from './storeTestKit.js';
+import { makeTempDir } from '../helpers/tempDir.js';
+import { T0 } from './storeTestKit.js';
 
 describe('stateChangeRepo', () => {
   let tmp: ReturnType<typeof makeTempDir>;
   let store: Store;
   beforeEach(() => {
-    tmp = makeTempDir();
+    tmp = makeTempDir('pw-store-');
     store = openStore({ path: join(tmp.dir, 'pw.db') });
   });
   afterEach(() => {

@@ -1,5 +1,3 @@
-import { mkdtempSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type BetterSqlite3 from 'better-sqlite3';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
@@ -8,17 +6,18 @@ import { countLoginFailures, deleteLoginFailuresBefore, insertLoginFailure } fro
 import { openDatabase } from '../../src/store/openDatabase.js';
 import { deleteUser, findUserByName, insertUser, listUsers } from '../../src/store/userRepo.js';
 import { deleteExpiredWebSessions, findWebSession, insertWebSession } from '../../src/store/webSessionRepo.js';
+import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
 
-let dir: string;
+let tmp: TempDir;
 let db: BetterSqlite3.Database;
 const T = Date.parse('2026-12-01T20:00:00.000Z');
 beforeEach(() => {
-  dir = mkdtempSync(join(tmpdir(), 'pairwatch-repo-'));
-  db = openDatabase(join(dir, 'site.db')).db;
+  tmp = makeTempDir('pairwatch-repo-');
+  db = openDatabase(join(tmp.dir, 'site.db')).db;
 });
 afterEach(() => {
   db.close();
-  rmSync(dir, { recursive: true, force: true });
+  tmp?.cleanup();
 });
 
 const addUser = (name: string) => insertUser(db, { name, role: 'operator', passwordHash: 'h', passwordSalt: 's', createdAt: T })!;

@@ -1,10 +1,10 @@
 import Database from 'better-sqlite3';
 import type { Database as Db } from 'better-sqlite3';
-import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { readFileSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
-import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { AlarmRecord } from '../../../src/alarms/alarmTypes.js';
+import { makeTempDir } from '../../helpers/tempDir.js';
 
 const MIGRATIONS = fileURLToPath(new URL('../../../migrations/', import.meta.url));
 // Only the schema this layer uses; other migrations belong to others and may be mid-edit.
@@ -21,7 +21,7 @@ export interface TestDb {
 
 /** A real SQLite file in a temp dir with the core schema applied. */
 export function openTestDb(): TestDb {
-  const dir = mkdtempSync(join(tmpdir(), 'pw-notify-'));
+  const { dir, cleanup: removeDir } = makeTempDir('pw-notify-');
   const file = join(dir, 'site.db');
   const db = new Database(file);
   db.pragma('journal_mode = WAL');
@@ -42,7 +42,7 @@ export function openTestDb(): TestDb {
     },
     cleanup() {
       for (const handle of opened) if (handle.open) handle.close();
-      rmSync(dir, { recursive: true, force: true });
+      removeDir();
     },
   };
 }

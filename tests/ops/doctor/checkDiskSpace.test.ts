@@ -1,20 +1,10 @@
-import { mkdtempSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { afterAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { checkDiskSpace, DISK_FAIL_BYTES, DISK_WARN_BYTES, type DiskDeps } from '../../../src/ops/doctor/checkDiskSpace.js';
 import { createDoctorDeps } from '../../../src/ops/doctor/defaultDoctorDeps.js';
+import { useTempDirs } from '../../helpers/tempDir.js';
 
-/** Temp folders made by this file, removed when it is done. */
-const madeDirs: string[] = [];
-function tempDir(prefix: string): string {
-  const dir = mkdtempSync(join(tmpdir(), prefix));
-  madeDirs.push(dir);
-  return dir;
-}
-afterAll(() => {
-  for (const dir of madeDirs) rmSync(dir, { recursive: true, force: true });
-});
+const tempDir = useTempDirs();
 
 const MiB = 1024 * 1024;
 function deps(free: number, existing: string[] = ['/var/lib/pairwatch', '/var/lib', '/var', '/'], writable = true): DiskDeps {

@@ -1,45 +1,26 @@
 import { execFileSync } from 'node:child_process';
-import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
-import type { AddressInfo } from 'node:net';
-import { createServer } from 'node:net';
-import { tmpdir } from 'node:os';
+import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { SMTPServer, type SMTPServerOptions } from 'smtp-server';
-import { afterAll, afterEach, describe, expect, it } from 'vitest';
+import { afterEach, describe, expect, it } from 'vitest';
 import type { MailConfig } from '../../../src/config/schema.js';
 import { checkSmtp, verifyWithNodemailer, type SmtpVerifier } from '../../../src/ops/doctor/checkSmtp.js';
+import { freePort } from '../../helpers/freePort.js';
+import { startSmtpSink, type SmtpSink, type SmtpSinkOptions } from '../../helpers/smtpSink.js';
+import { useTempDirs } from '../../helpers/tempDir.js';
 
-/** Temp folders made by this file, removed when it is done. */
-const madeDirs: string[] = [];
-function tempDir(prefix: string): string {
-  const dir = mkdtempSync(join(tmpdir(), prefix));
-  madeDirs.push(dir);
-  return dir;
-}
-afterAll(() => {
-  for (const dir of madeDirs) rmSync(dir, { recursive: true, force: true });
-});
+const tempDir = useTempDirs();
 
-/** Real SMTP servers on loopback (the registry's smtp-server package); doctor must never send a message. */
-const servers: SMTPServer[] = [];
-let messagesReceived = 0;
+/** Real SMTP servers on loopback (the shared smtp-server sink); doctor must never send a message. */
+const servers: SmtpSink[] = [];
 
-async function startServer(options: SMTPServerOptions): Promise<number> {
-  const server = new SMTPServer({
-    ...options,
-    onData(stream, _session, callback) {
-      messagesReceived++;
-      stream.resume();
-      stream.on('end', () => callback());
-    },
-  });
+async function startServer(options: SmtpSinkOptions): Promise<SmtpSink> {
+  const server = await startSmtpSink(options);
   servers.push(server);
-  await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', () => resolve()));
-  return (server.server.address() as AddressInfo).port;
+  return server;
 }
 
 afterEach(async () => {
-  await Promise.all(servers.splice(0).map((s) => new Promise<void>((resolve) => s.close(() => resolve()))));
+  await Promise.all(servers.splice(0).map((server) => server.close()));
 });
 
 function mail(port: number, smtp: Partial<NonNullable<MailConfig['smtp']>> = {}): MailConfig {
@@ -53,28 +34,19 @@ function mail(port: number, smtp: Partial<NonNullable<MailConfig['smtp']>> = {})
   };
 }
 
-const loginChecker = (user: string, pass: string): SMTPServerOptions => ({
-  authOptional: false,
-  allowInsecureAuth: true,
-  onAuth(auth, _session, callback) {
-    if (auth.username === user && auth.password === pass) callback(null, { user });
-    else callback(Object.assign(new Error('Invalid username or password'), { responseCode: 535 }));
-  },
-});
-
 describe('checkSmtp against a real SMTP server on loopback', () => {
   it('connects and logs in without sending mail', async () => {
-    const port = await startServer({ disabledCommands: ['STARTTLS'], ...loginChecker('monitor', 's3cret') });
-    const result = await checkSmtp(mail(port), { PW_TEST_SMTP_PASS: 's3cret' }, verifyWithNodemailer);
+    const server = await startServer({ user: 'monitor', pass: 's3cret' });
+    const result = await checkSmtp(mail(server.port), { PW_TEST_SMTP_PASS: 's3cret' }, verifyWithNodemailer);
     expect(result).toMatchObject({ name: 'smtp', status: 'ok' });
     expect(result.finding).toContain('logged in as monitor');
     expect(result.finding).toContain('no mail sent');
-    expect(messagesReceived).toBe(0);
+    expect(server.messages.length).toBe(0);
   });
 
   it('fails a wrong password with a fix naming the settings', async () => {
-    const port = await startServer({ disabledCommands: ['STARTTLS'], ...loginChecker('monitor', 's3cret') });
-    const result = await checkSmtp(mail(port), { PW_TEST_SMTP_PASS: 'wrong' }, verifyWithNodemailer);
+    const server = await startServer({ user: 'monitor', pass: 's3cret' });
+    const result = await checkSmtp(mail(server.port), { PW_TEST_SMTP_PASS: 'wrong' }, verifyWithNodemailer);
     expect(result.status).toBe('fail');
     expect(result.finding).toContain('refused the login for monitor');
     expect(result.fix).toContain('mail.smtp.user');
@@ -82,10 +54,7 @@ describe('checkSmtp against a real SMTP server on loopback', () => {
 
   it('fails when nothing listens', async () => {
     // A port known to be closed: bound by us, then released.
-    const probe = createServer();
-    await new Promise<void>((resolve) => probe.listen(0, '127.0.0.1', () => resolve()));
-    const port = (probe.address() as AddressInfo).port;
-    await new Promise<void>((resolve) => probe.close(() => resolve()));
+    const port = await freePort();
     const result = await checkSmtp(mail(port), { PW_TEST_SMTP_PASS: 'x' }, verifyWithNodemailer);
     expect(result.status).toBe('fail');
     expect(result.finding).toContain(`cannot connect to 127.0.0.1:${port}`);
@@ -95,8 +64,9 @@ describe('checkSmtp against a real SMTP server on loopback', () => {
   it('refuses a STARTTLS certificate it cannot trust', async () => {
     const dir = tempDir('pw-smtp-tls-');
     execFileSync('openssl', ['req', '-x509', '-newkey', 'rsa:2048', '-nodes', '-keyout', join(dir, 'key.pem'), '-out', join(dir, 'cert.pem'), '-days', '1', '-subj', '/CN=localhost'], { stdio: 'ignore' });
-    const port = await startServer({ key: readFileSync(join(dir, 'key.pem')), cert: readFileSync(join(dir, 'cert.pem')), ...loginChecker('monitor', 's3cret') });
-    const result = await checkSmtp(mail(port), { PW_TEST_SMTP_PASS: 's3cret' }, verifyWithNodemailer);
+    const certificate = { key: readFileSync(join(dir, 'key.pem')), cert: readFileSync(join(dir, 'cert.pem')) };
+    const server = await startServer({ starttls: true, certificate, user: 'monitor', pass: 's3cret' });
+    const result = await checkSmtp(mail(server.port), { PW_TEST_SMTP_PASS: 's3cret' }, verifyWithNodemailer);
     expect(result.status).toBe('fail');
     expect(result.finding).toContain('not trusted');
   });

@@ -3,6 +3,7 @@ import type { AddressInfo } from 'node:net';
 import { afterEach, describe, expect, it } from 'vitest';
 import type { WebConfig } from '../../../src/config/schema.js';
 import { checkWebPort, defaultWebPortDeps, parseListen } from '../../../src/ops/doctor/checkWebPort.js';
+import { freePort } from '../../helpers/freePort.js';
 
 const opened: Server[] = [];
 afterEach(async () => {
@@ -17,12 +18,6 @@ async function serve(status: number, body: string): Promise<number> {
   opened.push(server);
   await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', () => resolve()));
   return (server.address() as AddressInfo).port;
-}
-
-async function freePort(): Promise<number> {
-  const port = await serve(200, '');
-  await new Promise<void>((resolve) => opened.pop()!.close(() => resolve()));
-  return port;
 }
 
 const web = (listen: string): WebConfig => ({

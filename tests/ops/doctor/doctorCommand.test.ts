@@ -1,49 +1,23 @@
-import { mkdtempSync, writeFileSync, rmSync } from 'node:fs';
+import { writeFileSync } from 'node:fs';
 import type { AddressInfo } from 'node:net';
 import { createServer } from 'node:net';
-import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { PassThrough } from 'node:stream';
-import { afterAll, afterEach, describe, expect, it } from 'vitest';
-import type { CliIo } from '../../../src/cli/cliTypes.js';
+import { afterEach, describe, expect, it } from 'vitest';
 import { createDoctorCommand, doctorCommand } from '../../../src/cli/doctorCommand.js';
 import { createDoctorDeps } from '../../../src/ops/doctor/defaultDoctorDeps.js';
+import { captureCliIo } from '../../helpers/captureCliIo.js';
+import { freePort } from '../../helpers/freePort.js';
+import { useTempDirs } from '../../helpers/tempDir.js';
 import { line } from './protocolLines.js';
 import { openPtyPair, type PtyPair } from './ptyDecoder.js';
 
-/** Temp folders made by this file, removed when it is done. */
-const madeDirs: string[] = [];
-function tempDir(prefix: string): string {
-  const dir = mkdtempSync(join(tmpdir(), prefix));
-  madeDirs.push(dir);
-  return dir;
-}
-afterAll(() => {
-  for (const dir of madeDirs) rmSync(dir, { recursive: true, force: true });
-});
+const tempDir = useTempDirs();
 
 /** `pairwatch doctor` end to end: a real config file, a real pseudo-terminal decoder through serialport. */
 const cleanups: Array<() => Promise<void> | void> = [];
 afterEach(async () => {
   for (const cleanup of cleanups.splice(0).reverse()) await cleanup();
 });
-
-function captureIo(): { io: CliIo; out: () => string } {
-  const stdout = new PassThrough();
-  const stderr = new PassThrough();
-  let text = '';
-  stdout.on('data', (c) => (text += String(c)));
-  stderr.on('data', (c) => (text += String(c)));
-  return { io: { stdout, stderr, stdin: new PassThrough(), env: {} }, out: () => text };
-}
-
-async function freePort(): Promise<number> {
-  const server = createServer();
-  await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', () => resolve()));
-  const port = (server.address() as AddressInfo).port;
-  await new Promise<void>((resolve) => server.close(() => resolve()));
-  return port;
-}
 
 async function siteFile(dir: string, decoderPort: string): Promise<string> {
   const file = join(dir, 'site.yaml');
@@ -79,7 +53,7 @@ describe('pairwatch doctor', () => {
     const pty = await openPtyPair(dir);
     cleanups.push(() => pty.close());
     cleanups.push(runDecoder(pty));
-    const { io, out } = captureIo();
+    const { io, all: out } = captureCliIo();
     const code = await doctorCommand(['--config', await siteFile(dir, pty.port), '--listen', '2'], io);
     const text = out();
     expect(text).toMatch(/^ok {4}config: .* valid \(1 decoder, 2 loops\)/m);
@@ -100,7 +74,7 @@ describe('pairwatch doctor', () => {
     const dir = tempDir('pw-doctor-silent-');
     const pty = await openPtyPair(dir);
     cleanups.push(() => pty.close());
-    const { io, out } = captureIo();
+    const { io, all: out } = captureCliIo();
     const started = performance.now();
     const code = await createDoctorCommand(() => createDoctorDeps({ listenMs: 5000 }))(['--config', await siteFile(dir, pty.port)], io);
     const elapsedMs = performance.now() - started;
@@ -115,7 +89,7 @@ describe('pairwatch doctor', () => {
 
   it('fails a missing port and says where to look', async () => {
     const dir = tempDir('pw-doctor-missing-');
-    const { io, out } = captureIo();
+    const { io, all: out } = captureCliIo();
     const code = await doctorCommand(['--config', await siteFile(dir, join(dir, 'pairwatch-decoder-barn'))], io);
     const text = out();
     expect(text).toMatch(/^FAIL {2}decoder barn port: .* does not exist/m);
@@ -128,7 +102,7 @@ describe('pairwatch doctor', () => {
     const dir = tempDir('pw-doctor-badconfig-');
     const file = join(dir, 'site.yaml');
     writeFileSync(file, 'site: { name: "X" }\ndecoders: []\nloops: []\nstorage: { path: x.db }\ncolour: blue\n');
-    const { io, out } = captureIo();
+    const { io, all: out } = captureCliIo();
     const code = await doctorCommand(['--config', file], io);
     const text = out();
     expect(text).toMatch(/^FAIL {2}config: .* problems:/m);
@@ -146,7 +120,7 @@ describe('pairwatch doctor', () => {
     const holder = new SerialPort({ path: pty.port, baudRate: 115200, autoOpen: false });
     await new Promise<void>((resolve, reject) => holder.open((err) => (err ? reject(err) : resolve())));
     cleanups.push(() => new Promise<void>((resolve) => holder.close(() => resolve())));
-    const { io, out } = captureIo();
+    const { io, all: out } = captureCliIo();
     const code = await doctorCommand(['--config', await siteFile(dir, pty.port)], io);
     expect(out()).toMatch(/^warn  decoder barn protocol: .* is in use by another program/m);
     expect(out()).toContain('systemctl stop pairwatch');
@@ -163,7 +137,7 @@ describe('pairwatch doctor', () => {
     });
     await new Promise<void>((resolve) => box.listen(0, '127.0.0.1', () => resolve()));
     cleanups.push(() => new Promise<void>((resolve) => box.close(() => resolve())));
-    const { io, out } = captureIo();
+    const { io, all: out } = captureCliIo();
     const code = await doctorCommand(['--config', await siteFile(dir, `tcp://127.0.0.1:${(box.address() as AddressInfo).port}`), '--listen', '2'], io);
     expect(out()).toMatch(/^ok {4}decoder barn port: tcp:\/\/127\.0\.0\.1:\d+ accepted a connection/m);
     expect(out()).toMatch(/^ok {4}decoder barn protocol: speaks protocol v1 .*2 loops/m);
@@ -171,7 +145,7 @@ describe('pairwatch doctor', () => {
   });
 
   it('rejects bad usage with exit 2', async () => {
-    const { io, out } = captureIo();
+    const { io, all: out } = captureCliIo();
     expect(await doctorCommand(['--listen', 'soon'], io)).toBe(2);
     expect(out()).toContain('--listen must be a number');
     expect(await doctorCommand(['--colour'], io)).toBe(2);

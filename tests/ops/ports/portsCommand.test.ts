@@ -1,17 +1,8 @@
-import { PassThrough } from 'node:stream';
 import { describe, expect, it } from 'vitest';
-import type { CliIo } from '../../../src/cli/cliTypes.js';
 import { createPortsCommand, portsCommand, type ListedPort, type PortsCommandDeps } from '../../../src/cli/portsCommand.js';
+import { captureCliIo } from '../../helpers/captureCliIo.js';
 
-function captureIo(env: NodeJS.ProcessEnv = { PATH: '/usr/bin' }) {
-  const stdout = new PassThrough();
-  const stderr = new PassThrough();
-  const out = { stdout: '', stderr: '' };
-  stdout.on('data', (c) => (out.stdout += String(c)));
-  stderr.on('data', (c) => (out.stderr += String(c)));
-  const io: CliIo = { stdout, stderr, stdin: new PassThrough(), env };
-  return { io, out };
-}
+const captureIo = (env: NodeJS.ProcessEnv = { PATH: '/usr/bin' }) => captureCliIo({ env });
 
 const deps = (ports: ListedPort[] | Error, udevadm: string | null = '/usr/bin/udevadm'): PortsCommandDeps => ({
   listPorts: async () => {
@@ -24,7 +15,7 @@ const deps = (ports: ListedPort[] | Error, udevadm: string | null = '/usr/bin/ud
 
 describe('pairwatch ports', () => {
   it('lists each adapter and prints the udev rule line to paste', async () => {
-    const { io, out } = captureIo();
+    const { io, out, err } = captureIo();
     const code = await createPortsCommand(
       deps([
         { path: '/dev/ttyUSB0', manufacturer: 'Example Ltd', serialNumber: 'BX-0042', vendorId: '1209', productId: 'AB01' },
@@ -33,51 +24,51 @@ describe('pairwatch ports', () => {
       ]),
     )([], io);
     expect(code).toBe(0);
-    expect(out.stdout).toContain('/dev/ttyUSB0  USB 1209:AB01  maker: Example Ltd  serial: BX-0042');
-    expect(out.stdout).toContain(
+    expect(out()).toContain('/dev/ttyUSB0  USB 1209:AB01  maker: Example Ltd  serial: BX-0042');
+    expect(out()).toContain(
       'SUBSYSTEM=="tty", ATTRS{idVendor}=="1209", ATTRS{idProduct}=="ab01", ATTRS{serial}=="BX-0042", SYMLINK+="pairwatch-decoder-bx-0042"',
     );
-    expect(out.stdout).toContain('/dev/pairwatch-decoder-bx-0042');
-    expect(out.stdout).toContain('has no serial number');
-    expect(out.stdout).toContain('/dev/ttyS0  (no USB details');
-    expect(out.stdout).toContain('udevadm control --reload');
+    expect(out()).toContain('/dev/pairwatch-decoder-bx-0042');
+    expect(out()).toContain('has no serial number');
+    expect(out()).toContain('/dev/ttyS0  (no USB details');
+    expect(out()).toContain('udevadm control --reload');
   });
 
   it('explains a missing udevadm with a fix, exit 1, no stack trace', async () => {
-    const { io, out } = captureIo();
+    const { io, out, err } = captureIo();
     const code = await createPortsCommand(deps([], null))([], io);
     expect(code).toBe(1);
-    expect(out.stderr).toContain('udevadm program is not on PATH');
-    expect(out.stderr).toContain('apt-get install udev');
-    expect(out.stderr).not.toMatch(/\n\s+at /);
+    expect(err()).toContain('udevadm program is not on PATH');
+    expect(err()).toContain('apt-get install udev');
+    expect(err()).not.toMatch(/\n\s+at /);
   });
 
   it('explains a listing that fails', async () => {
-    const { io, out } = captureIo();
+    const { io, out, err } = captureIo();
     const code = await createPortsCommand(deps(new Error('Error listing ports udevadm exited with error code: 1\n    at stack')))([], io);
     expect(code).toBe(1);
-    expect(out.stderr).toContain('cannot list serial ports: Error listing ports udevadm exited with error code: 1\n');
-    expect(out.stderr).toContain('fix:');
-    expect(out.stderr).not.toContain('at stack');
+    expect(err()).toContain('cannot list serial ports: Error listing ports udevadm exited with error code: 1\n');
+    expect(err()).toContain('fix:');
+    expect(err()).not.toContain('at stack');
   });
 
   it('says so when there are no ports', async () => {
-    const { io, out } = captureIo();
+    const { io, out, err } = captureIo();
     expect(await createPortsCommand(deps([]))([], io)).toBe(0);
-    expect(out.stdout).toContain('No serial ports found');
+    expect(out()).toContain('No serial ports found');
   });
 
   it('rejects unknown options with exit 2', async () => {
-    const { io, out } = captureIo();
+    const { io, out, err } = captureIo();
     expect(await createPortsCommand(deps([]))(['--colour'], io)).toBe(2);
-    expect(out.stderr).toContain('usage: pairwatch ports');
+    expect(err()).toContain('usage: pairwatch ports');
   });
 
   it('really lists through serialport and udevadm on this machine', async () => {
-    const { io, out } = captureIo(process.env);
+    const { io, out, err } = captureIo(process.env);
     const code = await portsCommand([], io);
     // Either ports are listed or the reason is printed; never a throw.
     expect([0, 1]).toContain(code);
-    expect(out.stdout + out.stderr).toMatch(/serial ports|\/dev\//i);
+    expect(out() + err()).toMatch(/serial ports|\/dev\//i);
   });
 });

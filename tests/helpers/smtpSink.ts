@@ -15,19 +15,26 @@ export interface SmtpSink {
 
 export interface SmtpSinkOptions {
   port?: number;
+  /** Require AUTH with `user`/`pass`. Default true; false takes mail from anyone, as a relay on the LAN would. */
+  auth?: boolean;
   user?: string;
   pass?: string;
-  /** Offer STARTTLS with smtp-server's built-in self-signed certificate. Default false. */
+  /** Offer STARTTLS, with smtp-server's built-in self-signed certificate unless `certificate` is given. Default false. */
   starttls?: boolean;
+  certificate?: { key: Buffer; cert: Buffer };
   /** Recipients the server refuses with 550, as a mailbox that does not exist. */
   rejectRecipients?: string[];
+  /** Called with each parsed message before the server answers 250. */
+  onMessage?: (mail: ParsedMail) => void;
 }
 
 /**
- * A real SMTP server (smtp-server package) on 127.0.0.1 with AUTH required. Each message is parsed
- * with mailparser before the server answers 250, so once send() resolves the message is here.
+ * A real SMTP server (smtp-server package) on 127.0.0.1, AUTH required unless told otherwise. Each
+ * message is parsed with mailparser before the server answers 250, so once send() resolves the
+ * message is here.
  */
 export async function startSmtpSink(options: SmtpSinkOptions = {}): Promise<SmtpSink> {
+  const authRequired = options.auth ?? true;
   const user = options.user ?? 'monitor';
   const pass = options.pass ?? 's3cret-pass';
   const messages: ParsedMail[] = [];
@@ -35,16 +42,17 @@ export async function startSmtpSink(options: SmtpSinkOptions = {}): Promise<Smtp
   const logins: string[] = [];
   const overTls: boolean[] = [];
   const server = new SMTPServer({
-    authOptional: false,
+    authOptional: !authRequired,
     allowInsecureAuth: !options.starttls,
-    disabledCommands: options.starttls ? [] : ['STARTTLS'],
+    disabledCommands: [...(options.starttls ? [] : ['STARTTLS']), ...(authRequired ? [] : ['AUTH'])],
     authMethods: ['PLAIN', 'LOGIN'],
+    ...(options.certificate ?? {}),
     logger: false,
     onAuth(auth, _session, callback) {
       if (auth.username === user && auth.password === pass) {
         logins.push(auth.username ?? '');
         callback(null, { user: auth.username });
-      } else callback(new Error('Invalid username or password'));
+      } else callback(Object.assign(new Error('Invalid username or password'), { responseCode: 535 }));
     },
     onRcptTo(address, _session, callback) {
       if (options.rejectRecipients?.includes(address.address)) {
@@ -58,6 +66,7 @@ export async function startSmtpSink(options: SmtpSinkOptions = {}): Promise<Smtp
           messages.push(parsed);
           envelopes.push(session.envelope.rcptTo.map((r) => r.address));
           overTls.push(session.secure === true);
+          options.onMessage?.(parsed);
           callback();
         })
         .catch((err: Error) => callback(err));
@@ -76,17 +85,4 @@ export async function startSmtpSink(options: SmtpSinkOptions = {}): Promise<Smtp
     overTls,
     close: () => new Promise<void>((resolve) => server.close(() => resolve())),
   };
-}
-
-/** A port on 127.0.0.1 that nothing listens on (taken, then released): "the mail server is down". */
-export async function freePort(): Promise<number> {
-  const net = await import('node:net');
-  return new Promise((resolve, reject) => {
-    const probe = net.createServer();
-    probe.once('error', reject);
-    probe.listen(0, '127.0.0.1', () => {
-      const { port } = probe.address() as AddressInfo;
-      probe.close(() => resolve(port));
-    });
-  });
 }
