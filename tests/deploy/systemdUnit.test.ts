@@ -62,7 +62,7 @@ describe('deploy/pairwatch.service', () => {
     const unit = readUnit(readFileSync(UNIT, 'utf8'));
     const service = unit.get('Service')!;
     const one = (key: string) => service.get(key)?.[0];
-    expect(one('ExecStart')).toBe('/usr/bin/node /opt/pairwatch/dist/src/cli/main.js run --config /etc/pairwatch/site.yaml');
+    expect(one('ExecStart')).toBe('/usr/bin/node --max-semi-space-size=2 /opt/pairwatch/dist/src/cli/main.js run --config /etc/pairwatch/site.yaml');
     expect(one('User')).toBe('pairwatch');
     expect(one('SupplementaryGroups')).toBe('dialout');
     expect(one('Restart')).toBe('on-failure');
