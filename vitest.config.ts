@@ -9,5 +9,7 @@ export default defineConfig({
     maxWorkers: 2,
     testTimeout: 30_000,
     hookTimeout: 30_000,
+    // In CI also a JSON summary, from which .ci/run prints one plain "N passed, N failed" line.
+    reporters: process.env.CI ? ['default', ['json', { outputFile: 'tests/.output/vitest-results.json' }]] : ['default'],
   },
 });
