@@ -1,9 +1,9 @@
 import type { Logger } from 'pino';
-import { initialAlarmBook, nextWakeAt, openAlarms, stepAlarms, SYSTEM_ACTOR, type AlarmBook } from '../alarms/alarmEngine.js';
+import { initialAlarmBook, nextWakeAt, openAlarms, stepAlarms, type AlarmBook } from '../alarms/alarmEngine.js';
 import type { AlarmContext, AlarmInput, AlarmStepResult } from '../alarms/alarmInput.js';
 import type { AlarmEffect, AlarmRecord } from '../alarms/alarmTypes.js';
 import { policiesFromConfig } from '../alarms/escalationPolicy.js';
-import { currentLoopState, intervalFigures, isIntermittent, emptyLineQuality, type LineQuality } from '../classify/index.js';
+import { emptyLineQuality, type LineQuality } from '../classify/index.js';
 import { loopSettingsFromConfig } from '../classify/loopSettings.js';
 import type { SiteConfig } from '../config/schema.js';
 import type { Condition } from '../model/condition.js';
@@ -11,7 +11,7 @@ import type { LoopState } from '../model/loopState.js';
 import { queueNotices } from '../notify/noticeQueue.js';
 import { sessionCounters } from '../protocol/decoderSession.js';
 import { alarmInputsFor, loopsById, raiseFor, type LoopsById } from '../site/alarmInputsFor.js';
-import { indexSite, initialSiteState, siteLoopState, stepSite, takeSiteQuality, type SiteIndex } from '../site/siteStep.js';
+import { indexSite, initialSiteState, stepSite, takeSiteQuality, type SiteIndex } from '../site/siteStep.js';
 import type { SiteEffect, SiteInput, SiteState } from '../site/siteTypes.js';
 import type { DurableWriter } from '../store/createDurableWriter.js';
 import type { EdgeRow } from '../store/edgeRepo.js';
@@ -98,7 +98,6 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   let edgeBuffer: EdgeRow[] = [];
   let edgeBufferSinceMs = 0;
   let pendingLastPulse = new Map<string, number>();
-  let framesTotal = 0;
 
   // Every start records the loops as unknown: the classifier decides afresh within seconds.
   writer.commit('start', (s) => {
@@ -154,7 +153,6 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   function handle(input: SiteInput, now: number): void {
     const stepped = stepSite(index, site, input, now);
     site = stepped.state;
-    if (input.kind === 'line') framesTotal += 1;
     if (stepped.effects.length === 0) return;
     commitSiteEffects(stepped.effects, now);
   }
@@ -365,12 +363,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     openAlarms: (): AlarmRecord[] => openAlarms(book),
     isLoopInService: (loopId: string) => !book.outOfService.some((o) => o.loopId === loopId),
     outOfServiceNote: (loopId: string) => book.outOfService.find((o) => o.loopId === loopId)?.note ?? null,
-    classifierState: (loopId: string) => currentLoopState(siteLoopState(index, site, loopId)!),
-    isIntermittent: (loopId: string) => isIntermittent(siteLoopState(index, site, loopId)!),
-    framesTotal: () => framesTotal,
-    intervalFigures,
   };
 }
 
 export type MonitorCore = ReturnType<typeof createMonitorCore>;
-export { SYSTEM_ACTOR };

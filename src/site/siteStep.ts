@@ -174,9 +174,3 @@ export function takeSiteQuality(index: SiteIndex, state: SiteState): { state: Si
   });
   return { state: { ...state, loops }, qualities };
 }
-
-/** One loop's classifier state by id; undefined for an id the site does not have. */
-export function siteLoopState(index: SiteIndex, state: SiteState, loopId: string): LoopClassifierState | undefined {
-  const position = index.positions.get(loopId);
-  return position === undefined ? undefined : state.loops[position];
-}

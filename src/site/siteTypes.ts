@@ -28,7 +28,7 @@ export interface DecoderRuntime {
 
 export interface SiteState {
   decoders: Record<string, DecoderRuntime>;
-  /** Classifier state per loop, in the order of the site definition (see `siteLoopState`). */
+  /** Classifier state per loop, in the order of the site definition (`SiteIndex.positions` maps ids). */
   loops: readonly LoopClassifierState[];
 }
 
