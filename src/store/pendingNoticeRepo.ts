@@ -1,12 +1,10 @@
 import type { Database, Statement } from 'better-sqlite3';
-import type { AlarmState } from '../model/alarmState.js';
-import type { Condition, Priority } from '../model/condition.js';
 import type { NoticeKind } from '../alarms/alarmTypes.js';
 import type { NoticeAlarm, PendingNotice } from '../notify/noticeTypes.js';
+import { createAlarmRepo } from './alarmRepo.js';
 
 const iso = (ms: number) => new Date(ms).toISOString();
 const epoch = (text: string) => Date.parse(text);
-const epochOrNull = (text: string | null) => (text === null ? null : Date.parse(text));
 
 interface NoticeColumns {
   id: number;
@@ -18,31 +16,12 @@ interface NoticeColumns {
   detail_json: string;
 }
 
-interface AlarmColumns {
-  id: number;
-  source: string;
-  loop_id: string | null;
-  condition: string;
-  priority: string;
-  state: string;
-  active: number;
-  raised_at: string;
-  cleared_at: string | null;
-  acked_at: string | null;
-  acked_by: string | null;
-  note: string | null;
-  shelved_until: string | null;
-  shelve_reason: string | null;
-  thread_message_id: string | null;
-}
-
 interface NoticeStatements {
   insert: Statement;
   contactDue: Statement;
   all: Statement;
   remove: Statement;
   nextDue: Statement;
-  alarm: Statement;
   setThread: Statement;
 }
 const cache = new WeakMap<Database, NoticeStatements>();
@@ -58,10 +37,6 @@ function statements(db: Database): NoticeStatements {
       all: db.prepare('SELECT * FROM pending_notices ORDER BY due_at, id'),
       remove: db.prepare('DELETE FROM pending_notices WHERE id = ?'),
       nextDue: db.prepare('SELECT MIN(due_at) AS at FROM pending_notices'),
-      alarm: db.prepare(
-        `SELECT id, source, loop_id, condition, priority, state, active, raised_at, cleared_at, acked_at, acked_by, note,
-           shelved_until, shelve_reason, thread_message_id FROM alarms WHERE id = ?`,
-      ),
       setThread: db.prepare('UPDATE alarms SET thread_message_id = ? WHERE id = ? AND thread_message_id IS NULL'),
     };
     cache.set(db, s);
@@ -107,29 +82,29 @@ export function nextPendingNoticeDueAt(db: Database): number | null {
   return row.at === null ? null : epoch(row.at);
 }
 
-/** The alarm fields a notice mail shows; alarms not on record are left out. */
+/** The alarm fields a notice mail shows; alarms not on record are left out. Read through the alarm repo, so the row mapping lives in one place. */
 export function loadNoticeAlarms(db: Database, alarmIds: readonly number[]): NoticeAlarm[] {
-  const s = statements(db);
+  const alarmRepo = createAlarmRepo(db);
   const alarms: NoticeAlarm[] = [];
   for (const id of new Set(alarmIds)) {
-    const row = s.alarm.get(id) as AlarmColumns | undefined;
-    if (!row) continue;
+    const alarm = alarmRepo.get(id);
+    if (!alarm) continue;
     alarms.push({
-      id: row.id,
-      source: row.source,
-      loopId: row.loop_id,
-      condition: row.condition as Condition,
-      priority: row.priority as Priority,
-      state: row.state as AlarmState,
-      active: row.active === 1,
-      raisedAt: epoch(row.raised_at),
-      clearedAt: epochOrNull(row.cleared_at),
-      ackedAt: epochOrNull(row.acked_at),
-      ackedBy: row.acked_by,
-      note: row.note,
-      shelvedUntil: epochOrNull(row.shelved_until),
-      shelveReason: row.shelve_reason,
-      threadMessageId: row.thread_message_id,
+      id: alarm.id,
+      source: alarm.source,
+      loopId: alarm.loopId,
+      condition: alarm.condition,
+      priority: alarm.priority,
+      state: alarm.state,
+      active: alarm.active,
+      raisedAt: alarm.raisedAt,
+      clearedAt: alarm.clearedAt,
+      ackedAt: alarm.ackedAt,
+      ackedBy: alarm.ackedBy,
+      note: alarm.note,
+      shelvedUntil: alarm.shelvedUntil,
+      shelveReason: alarm.shelveReason,
+      threadMessageId: alarmRepo.threadMessageId(alarm.id),
     });
   }
   return alarms;
