@@ -39,3 +39,17 @@ export type BenchScenario = (opts: BenchOptions) => Promise<BenchResult>;
 export function infoRow(figure: string, value: number, unit: string): BenchRow {
   return { figure, value, unit, reference: null, referenceValue: null, ratio: null, target: null, met: null };
 }
+
+/** A latency figure judged against an upper bound in ms; `complete` is false when some samples never arrived. */
+export function ceilingRow(figure: string, valueMs: number, ceilingMs: number, complete: boolean): BenchRow {
+  return {
+    figure,
+    value: valueMs,
+    unit: 'ms',
+    reference: 'target',
+    referenceValue: ceilingMs,
+    ratio: valueMs / ceilingMs,
+    target: `≤ ${ceilingMs} ms`,
+    met: complete && valueMs <= ceilingMs,
+  };
+}

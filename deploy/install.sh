@@ -17,41 +17,26 @@
 # protection and anything on the mains side are for a licensed electrician under local codes.
 set -euo pipefail
 
-APP_DIR=/opt/pairwatch
-ETC_DIR=/etc/pairwatch
-DATA_DIR=/var/lib/pairwatch
-UNIT_PATH=/etc/systemd/system/pairwatch.service
-RULES_PATH=/etc/udev/rules.d/99-pairwatch-decoder.rules
-BIN_PATH=/usr/local/bin/pairwatch
-SERVICE_USER=pairwatch
+SCRIPT_NAME=install
+# shellcheck source=common.sh
+. "$(dirname "${BASH_SOURCE[0]}")/common.sh"
+
 NODE=/usr/bin/node
 # What ships, as package.json's "files" field lists it (plus the package metadata).
 APP_TREES=(dist migrations config deploy)
 APP_FILES=(package.json package-lock.json README.md LICENSE)
 
 SOURCE_DIR="${PAIRWATCH_SOURCE:-$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)}"
-ROOT="${DESTDIR:-}"
-ROOT="${ROOT%/}"
 COPY_NODE_MODULES=0
 START=1
 CHANGED=0
 UNIT_CHANGED=0
 RULES_CHANGED=0
 
-say() { printf 'pairwatch install: %s\n' "$*"; }
 die() {
   printf 'pairwatch install: error: %s\n' "$1" >&2
   [ -n "${2:-}" ] && printf '  fix: %s\n' "$2" >&2
   exit 1
-}
-scratch() { [ -n "$ROOT" ]; }
-# Privileged or system-changing commands: run them for real, or say what would run in a scratch root.
-act() {
-  if scratch; then
-    say "would run: $*"
-  else
-    "$@"
-  fi
 }
 
 for arg in "$@"; do

@@ -8,27 +8,12 @@
 # DESTDIR=/some/root removes from under that root only and prints the system commands it would run.
 set -euo pipefail
 
-APP_DIR=/opt/pairwatch
-ETC_DIR=/etc/pairwatch
-DATA_DIR=/var/lib/pairwatch
-UNIT_PATH=/etc/systemd/system/pairwatch.service
-RULES_PATH=/etc/udev/rules.d/99-pairwatch-decoder.rules
-BIN_PATH=/usr/local/bin/pairwatch
-SERVICE_USER=pairwatch
+SCRIPT_NAME=uninstall
+# shellcheck source=common.sh
+. "$(dirname "${BASH_SOURCE[0]}")/common.sh"
 
-ROOT="${DESTDIR:-}"
-ROOT="${ROOT%/}"
 PURGE=0
 
-say() { printf 'pairwatch uninstall: %s\n' "$*"; }
-scratch() { [ -n "$ROOT" ]; }
-act() {
-  if scratch; then
-    say "would run: $*"
-  else
-    "$@"
-  fi
-}
 remove() {
   if [ -e "$ROOT$1" ] || [ -L "$ROOT$1" ]; then
     rm -rf -- "$ROOT$1"

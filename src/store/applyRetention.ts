@@ -4,6 +4,7 @@ import { databaseSize } from './databaseSize.js';
 import { HOUR_MS, floorTo } from './hourBucket.js';
 import { toIso } from './isoTime.js';
 import { pruneEdges } from './pruneEdges.js';
+import { ADD_TO_EXISTING_BUCKET } from './lineQualityRepo.js';
 
 export type RetentionSettings = Pick<SiteConfig['storage']['retention'], 'edges' | 'minute_quality' | 'hourly_quality'>;
 
@@ -43,15 +44,7 @@ export function applyRetention(store: Store, retention: RetentionSettings, nowMs
                 sum(interval_sq_sum_ms), sum(out_of_tolerance), sum(glitches), sum(long_pulses), sum(lost_frames)
          FROM line_quality WHERE resolution = 'minute' AND bucket_at < ?
          GROUP BY loop_id, ${hourStart}
-         ON CONFLICT (loop_id, resolution, bucket_at) DO UPDATE SET
-           pulses = pulses + excluded.pulses,
-           interval_count = interval_count + excluded.interval_count,
-           interval_sum_ms = interval_sum_ms + excluded.interval_sum_ms,
-           interval_sq_sum_ms = interval_sq_sum_ms + excluded.interval_sq_sum_ms,
-           out_of_tolerance = out_of_tolerance + excluded.out_of_tolerance,
-           glitches = glitches + excluded.glitches,
-           long_pulses = long_pulses + excluded.long_pulses,
-           lost_frames = lost_frames + excluded.lost_frames`,
+         ${ADD_TO_EXISTING_BUCKET}`,
       )
       .run(foldBefore).changes;
     const minuteRowsFolded = db

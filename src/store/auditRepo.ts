@@ -2,6 +2,7 @@ import type { SqliteDatabase } from './openDatabase.js';
 import { AUDIT_ACTIONS, type AuditEntry } from '../alarms/alarmTypes.js';
 import { checkRowValue } from './checkRowValue.js';
 import { fromIso, toIso } from './isoTime.js';
+import { rangeParams } from './rangeParams.js';
 
 export interface AuditRecord extends AuditEntry {
   id: number;
@@ -66,13 +67,7 @@ export function createAuditRepo(db: SqliteDatabase): AuditRepo {
       return (forAlarm.all(alarmId) as AuditRow[]).map(toAuditRecord);
     },
     list(query) {
-      const rows = list.all({
-        loopId: query.loopId ?? null,
-        since: query.since === undefined ? null : toIso(query.since),
-        until: query.until === undefined ? null : toIso(query.until),
-        afterId: query.afterId ?? 0,
-        limit: query.limit,
-      }) as AuditRow[];
+      const rows = list.all(rangeParams(query)) as AuditRow[];
       return rows.map(toAuditRecord);
     },
   };

@@ -6,6 +6,20 @@ import { fromIso, toIso } from './isoTime.js';
 export const QUALITY_RESOLUTIONS = ['minute', 'hour'] as const;
 export type QualityResolution = (typeof QUALITY_RESOLUTIONS)[number];
 
+/**
+ * Upsert tail shared by the minute writes and retention's hourly fold: a bucket that exists already
+ * gets the new counters added, so the two can never disagree about which columns are sums.
+ */
+export const ADD_TO_EXISTING_BUCKET = `ON CONFLICT (loop_id, resolution, bucket_at) DO UPDATE SET
+      pulses = pulses + excluded.pulses,
+      interval_count = interval_count + excluded.interval_count,
+      interval_sum_ms = interval_sum_ms + excluded.interval_sum_ms,
+      interval_sq_sum_ms = interval_sq_sum_ms + excluded.interval_sq_sum_ms,
+      out_of_tolerance = out_of_tolerance + excluded.out_of_tolerance,
+      glitches = glitches + excluded.glitches,
+      long_pulses = long_pulses + excluded.long_pulses,
+      lost_frames = lost_frames + excluded.lost_frames`;
+
 export interface LineQualityRecord {
   loopId: string;
   resolution: QualityResolution;
@@ -41,15 +55,7 @@ export function createLineQualityRepo(db: SqliteDatabase): LineQualityRepo {
                               out_of_tolerance, glitches, long_pulses, lost_frames)
     VALUES (@loopId, 'minute', @bucketAt, @pulses, @intervalCount, @intervalSumMs, @intervalSqSumMs,
             @outOfTolerance, @glitches, @longPulses, @lostFrames)
-    ON CONFLICT (loop_id, resolution, bucket_at) DO UPDATE SET
-      pulses = pulses + excluded.pulses,
-      interval_count = interval_count + excluded.interval_count,
-      interval_sum_ms = interval_sum_ms + excluded.interval_sum_ms,
-      interval_sq_sum_ms = interval_sq_sum_ms + excluded.interval_sq_sum_ms,
-      out_of_tolerance = out_of_tolerance + excluded.out_of_tolerance,
-      glitches = glitches + excluded.glitches,
-      long_pulses = long_pulses + excluded.long_pulses,
-      lost_frames = lost_frames + excluded.lost_frames`);
+    ${ADD_TO_EXISTING_BUCKET}`);
   const list = db.prepare(
     'SELECT * FROM line_quality WHERE loop_id = ? AND bucket_at >= ? AND bucket_at < ? ORDER BY bucket_at, resolution',
   );

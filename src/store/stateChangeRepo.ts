@@ -2,6 +2,7 @@ import type { SqliteDatabase } from './openDatabase.js';
 import { LOOP_STATES, type LoopState } from '../model/loopState.js';
 import { checkRowValue } from './checkRowValue.js';
 import { fromIso, toIso } from './isoTime.js';
+import { rangeParams } from './rangeParams.js';
 
 export interface NewStateChange {
   loopId: string;
@@ -78,13 +79,7 @@ export function createStateChangeRepo(db: SqliteDatabase): StateChangeRepo {
       return Number(info.lastInsertRowid);
     },
     list(query) {
-      const rows = list.all({
-        loopId: query.loopId ?? null,
-        since: query.since === undefined ? null : toIso(query.since),
-        until: query.until === undefined ? null : toIso(query.until),
-        afterId: query.afterId ?? 0,
-        limit: query.limit,
-      }) as StateChangeRow[];
+      const rows = list.all(rangeParams(query)) as StateChangeRow[];
       return rows.map(toStateChangeRecord);
     },
     latestBefore(loopId, beforeMs) {

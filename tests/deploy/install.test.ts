@@ -78,6 +78,7 @@ describe('deploy/install.sh into a scratch root (DESTDIR)', () => {
         'opt/pairwatch/config/example.yaml',
         'opt/pairwatch/deploy/99-pairwatch-decoder.rules.in',
         'opt/pairwatch/deploy/README.md',
+        'opt/pairwatch/deploy/common.sh',
         'opt/pairwatch/deploy/install.sh',
         'opt/pairwatch/deploy/pairwatch.service',
         'opt/pairwatch/deploy/uninstall.sh',
