@@ -21,7 +21,7 @@ export const demoCommand: CliCommand = async (argv, io) => {
   if (!loaded) return 2;
   const config = values.listen ? { ...loaded, web: { ...loaded.web, listen: values.listen } } : loaded;
   // A fresh password each start, printed once: the demo never ships a known password.
-  const password = randomBytes(9).toString('base64url');
+  const password = randomBytes(12).toString('base64url'); // 16 characters: the sign-in minimum is 15
   return runMonitorUntilSignal(config, file, io, {
     onStarted: async (monitor, logger) => {
       const hashed = await hashPassword(password);
