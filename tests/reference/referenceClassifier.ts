@@ -29,8 +29,9 @@ export interface RefSettings {
   intermittentWindowMs: number;
 }
 
+export type RefState = 'unknown' | 'healthy' | 'tripped' | 'open' | 'shorted';
 export type RefEvent =
-  | { what: 'state'; to: 'unknown' | 'healthy' | 'tripped' | 'open' | 'shorted'; atUs: number }
+  | { what: 'state'; to: RefState; atUs: number }
   | { what: 'intermittent'; on: boolean; atUs: number };
 
 const WRAP = 2 ** 32;
@@ -57,7 +58,7 @@ export function referenceClassify(frames: readonly RefFrame[], cfg: RefSettings)
   let expectSeq: number | null = null;
 
   // The loop.
-  let state: RefEvent & { what: 'state' } extends { to: infer S } ? S : never = 'unknown';
+  let state = 'unknown' as RefState;
   let band: RefBand | null = null;
   let spanStart = 0;
   let spanFromEdge = false; // the span began with an EDGE (its start is exact)
@@ -78,7 +79,7 @@ export function referenceClassify(frames: readonly RefFrame[], cfg: RefSettings)
     return windowFrom + extra + tripW;
   };
 
-  const enter = (to: typeof state, at: number) => {
+  const enter = (to: RefState, at: number) => {
     if (to === state) return;
     // Rule 9: the flag drops at healthy-since + window if that comes no later than the next fault.
     if (flagged && state === 'healthy' && healthySince !== null && healthySince + window <= at) {
