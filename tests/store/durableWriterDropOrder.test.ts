@@ -56,3 +56,68 @@ describe('createDurableWriter: which droppable batches survive a full queue', ()
     expect(real.stateChanges.list({ limit: 10 }).map((c) => c.reason)).toEqual(['change 2']);
   });
 });
+
+describe('createDurableWriter: fsync policy per batch (synchronous=FULL unless only droppable data)', () => {
+  it('droppable-only work runs with synchronous NORMAL, everything else with FULL, and FULL is put back', () => {
+    const tmp = makeTempDir('pw-sync-');
+    const store = openStore({ path: join(tmp.dir, 'pw.db') });
+    try {
+      // SQLite's PRAGMA synchronous values: 1 = NORMAL, 2 = FULL (sqlite.org/pragma.html#pragma_synchronous).
+      const seen: Array<[string, unknown]> = [];
+      const look = (label: string) => (s: Store) => void seen.push([label, s.db.pragma('synchronous', { simple: true })]);
+      const writer = createDurableWriter({ store, onFailing() {}, onRecovered() {} });
+      expect(store.db.pragma('synchronous', { simple: true })).toBe(2);
+      writer.commit('edges', look('droppable'), { droppable: true });
+      writer.commit('state', look('state'));
+      expect(seen).toEqual([
+        ['droppable', 1],
+        ['state', 2],
+      ]);
+      expect(store.db.pragma('synchronous', { simple: true })).toBe(2);
+    } finally {
+      store.close();
+      tmp.cleanup();
+    }
+  });
+
+  it('a queue written on recovery in batches: all droppable → NORMAL, any state change in the batch → FULL', () => {
+    const tmp = makeTempDir('pw-sync-');
+    const real = openStore({ path: join(tmp.dir, 'pw.db') });
+    let full = true;
+    const flaky: Store = {
+      ...real,
+      transaction: (fn) => {
+        if (full) throw Object.assign(new Error('database or disk is full'), { code: 'SQLITE_FULL' });
+        return real.transaction(fn);
+      },
+    };
+    try {
+      const seen: Array<[string, unknown]> = [];
+      const look = (label: string) => (s: Store) => void seen.push([label, s.db.pragma('synchronous', { simple: true })]);
+      let nowMs = T0;
+      const recovered: unknown[] = [];
+      const writer = createDurableWriter({ store: flaky, onFailing() {}, onRecovered: (info) => recovered.push(info), batchSize: 2, now: () => nowMs });
+      writer.commit('e1', look('e1'), { droppable: true });
+      writer.commit('e2', look('e2'), { droppable: true });
+      writer.commit('c3', look('c3'));
+      writer.commit('e4', look('e4'), { droppable: true });
+      expect(writer.status()).toMatchObject({ pending: 4, failingSinceMs: T0, droppedBatches: 0 });
+      expect(writer.status().failing).toMatchObject({ kind: 'disk-full' });
+      full = false;
+      nowMs += 7_000;
+      expect(writer.flush()).toBe('written');
+      // Batches of two: [e1, e2] only droppable; [c3, e4] holds a state change.
+      expect(seen).toEqual([
+        ['e1', 1],
+        ['e2', 1],
+        ['c3', 2],
+        ['e4', 2],
+      ]);
+      expect(recovered).toEqual([{ written: 4, droppedBatches: 0, failedForMs: 7_000 }]);
+      expect(writer.status()).toEqual({ failing: null, failingSinceMs: null, pending: 0, droppedBatches: 0 });
+    } finally {
+      real.close();
+      tmp.cleanup();
+    }
+  });
+});
