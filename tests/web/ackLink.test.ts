@@ -11,8 +11,8 @@ afterEach(async () => {
 });
 
 const HOUR = 3_600_000;
-const tokenFor = (alarmId: number, expiresAt = web.clock.now + HOUR, secret = ACK_SECRET) =>
-  signAckToken({ alarmId, expiresAt, tokenId: newAckTokenId() }, secret);
+const tokenFor = (alarmId: number, expiresAt = web.clock.now + HOUR, secret = ACK_SECRET, contactId = 'office') =>
+  signAckToken({ alarmId, contactId, expiresAt, tokenId: newAckTokenId() }, secret);
 const postAck = (token: string, fields: Record<string, string>) =>
   web.app.inject({
     method: 'POST',
@@ -44,12 +44,12 @@ describe('acknowledge links from mail', () => {
     expect(web.site.calls).toEqual([]);
   });
 
-  it('POST acknowledges once, as "mail-link", with the note; no session or CSRF token needed', async () => {
+  it('POST acknowledges once, as the contact the link was mailed to, with the note; no session or CSRF token needed', async () => {
     const token = tokenFor(7);
     const res = await postAck(token, { alarm: '7', note: 'seen it, on my way' });
     expect(res.statusCode).toBe(200);
     expect(res.body).toContain('Acknowledged');
-    expect(web.site.calls).toEqual([{ command: 'acknowledge', args: [7, 'mail-link', 'seen it, on my way'] }]);
+    expect(web.site.calls).toEqual([{ command: 'acknowledge', args: [7, 'Farm office (mail link)', 'seen it, on my way'] }]);
 
     const replay = await postAck(token, { alarm: '7' });
     expect(replay.statusCode).toBe(410);

@@ -138,7 +138,7 @@ describe('the board on a phone, in headless Chromium', () => {
   it('an acknowledge link from a mail: the page asks, the button acknowledges', async () => {
     const alarm = web.site.alarms.find((a) => a.id === 7)!;
     alarm.state = 'unacknowledged';
-    const token = signAckToken({ alarmId: 7, expiresAt: web.clock.now + 3_600_000, tokenId: newAckTokenId() }, ACK_SECRET);
+    const token = signAckToken({ alarmId: 7, contactId: 'office', expiresAt: web.clock.now + 3_600_000, tokenId: newAckTokenId() }, ACK_SECRET);
     const context = await browser.newContext({ viewport: { width: 390, height: 844 } });
     const page = await context.newPage();
     const before = web.site.calls.length;
