@@ -62,7 +62,7 @@ describe('acknowledge links from mail', () => {
   it('refuses a forged token (signed with another key, or altered)', async () => {
     const otherKey = tokenFor(7, web.clock.now + HOUR, Buffer.alloc(32, 9));
     const good = tokenFor(7);
-    const altered = good.replace(/^a1\.7\./, 'a1.8.');
+    const altered = good.replace(/^a2\.7\./, 'a2.8.');
     for (const token of [otherKey, altered]) {
       expect((await web.app.inject({ method: 'GET', url: `/ack/${token}` })).statusCode).toBe(403);
       const res = await postAck(token, { alarm: token === altered ? '8' : '7' });
