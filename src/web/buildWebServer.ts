@@ -158,7 +158,9 @@ export function buildWebServer(options: WebServerOptions): FastifyInstance {
     // Before anything reads the request: the server's own origin is taken from Host.
     const host = request.headers.host;
     if (!hostAllowed(host, allowedHosts)) {
-      throw new WebError('PW_WEB_WRONG_HOST', { host: (hostNameOf(host) ?? String(host ?? '')).slice(0, 80).replace(/[^\x21-\x7e]/g, '?') }, { field: 'host' });
+      // Plain, with nothing of the site in it: a rebinding page could read this answer.
+      const error = new WebError('PW_WEB_WRONG_HOST', { host: (hostNameOf(host) ?? String(host ?? '')).slice(0, 80).replace(/[^\x21-\x7e]/g, '?') }, { field: 'host' });
+      return reply.code(error.status).type('application/json; charset=utf-8').send(error.toBody());
     }
   });
 
