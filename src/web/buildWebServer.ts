@@ -98,7 +98,15 @@ export function buildWebServer(options: WebServerOptions): FastifyInstance {
     reply.code(400).send();
   };
   const requestTimeout = config.web.request_timeout;
+  // Node looks for overdue requests every connectionsCheckingInterval (default 30 s); look often enough
+  // that a short request_timeout is kept, and give headers no longer than the whole request.
+  const nodeHttp = {
+    connectionsCheckingInterval: Math.max(250, Math.min(30_000, Math.floor(requestTimeout / 2))),
+    headersTimeout: requestTimeout,
+    requestTimeout,
+  };
   const common = {
+    http: nodeHttp,
     bodyLimit: BODY_LIMIT,
     // A request whose headers or body never finish is dropped (fastify's default is to wait for ever);
     // a socket silent for twice that is closed too. The live stream writes every 20 s, well within it.
@@ -110,7 +118,7 @@ export function buildWebServer(options: WebServerOptions): FastifyInstance {
     return503OnClosing: true,
     frameworkErrors: (error: FastifyError, request: FastifyRequest, reply: FastifyReply) => answerFrameworkError(error, request, reply),
   };
-  const app = (tls ? Fastify({ https: tls, ...common }) : Fastify(common)) as unknown as FastifyInstance;
+  const app = (tls ? Fastify({ https: { ...tls, ...nodeHttp }, ...common }) : Fastify(common)) as unknown as FastifyInstance;
   // Node closes connections past this at once, before they hold a file for a request timeout.
   (app.server as Server).maxConnections = webConnectionCap(
     config.web.max_connections,
