@@ -151,7 +151,7 @@ describe('the board on a phone, in headless Chromium', () => {
     await page.click('button:has-text("Acknowledge")');
     await expect.poll(() => page.textContent('h1')).toBe('Acknowledged');
     await page.screenshot({ path: join(OUT, '11-ack-link-done.png'), fullPage: true });
-    expect(web.site.calls.at(-1)).toEqual({ command: 'acknowledge', args: [7, 'mail-link', 'from the tractor'] });
+    expect(web.site.calls.at(-1)).toEqual({ command: 'acknowledge', args: [7, 'Farm office (mail link)', 'from the tractor'] });
     await page.goto(`${base}/ack/${token}`);
     expect(await page.textContent('h1')).toBe('Link refused');
     await context.close();
