@@ -157,6 +157,16 @@ const webSchema = z
     ack_link_ttl: duration.default(7 * 86_400_000),
     max_shelve: duration.default(24 * 3_600_000),
     login_attempts_per_minute: z.number().int().min(1).default(5),
+    /** A session not used for this long ends (besides session_ttl, which counts from sign-in). */
+    session_idle: duration.default(12 * 3_600_000),
+    /** Host names the server answers to besides those of listen and public_url (DNS-rebinding guard). */
+    allowed_hosts: z.array(z.string().regex(/^[A-Za-z0-9.-]+$|^\[[0-9a-fA-F:]+\]$/, 'must be a host name or [IPv6] address, without a port')).default([]),
+    /** When set, /metrics needs "Authorization: Bearer <this>"; unset, /metrics answers loopback clients only. */
+    metrics_token: z.string().min(16, 'must be at least 16 characters').optional(),
+    /** Longest time a client may take to send one whole request (headers and body). */
+    request_timeout: duration.default(30_000),
+    /** Most simultaneous web connections (further ones are closed at once); also kept below the open-file limit. */
+    max_connections: z.number().int().min(1).default(200),
   })
   .prefault({});
 

@@ -234,11 +234,16 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     if (alarmEffects.length > 0) options.onChange?.('alarms');
   }
 
-  /** An operator's or the system's action on alarms; refused actions come back with their error. */
-  function alarmAction(input: AlarmInput, now: number): AlarmStepResult {
+  /**
+   * An operator's or the system's action on alarms; refused actions come back with their error.
+   * `alsoInTransaction` runs inside the same commit, only for an accepted action (an acknowledge link is
+   * spent this way, so a refused acknowledgement leaves it usable).
+   */
+  function alarmAction(input: AlarmInput, now: number, alsoInTransaction?: () => void): AlarmStepResult {
     const [result] = runAlarms([input], now).results;
     if (!result || result.error) return result ?? { book, effects: [] };
     writer.commit(`alarm ${input.kind}`, (s) => {
+      alsoInTransaction?.();
       if (input.kind === 'out-of-service' || input.kind === 'return-to-service') {
         s.loopStatus.setService(input.loopId, input.kind === 'return-to-service', input.note, input.actor, now);
       }

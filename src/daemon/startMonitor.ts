@@ -1,4 +1,3 @@
-import { mkdirSync } from 'node:fs';
 import { dirname, resolve } from 'node:path';
 import type { Logger } from 'pino';
 import type { SiteConfig } from '../config/schema.js';
@@ -17,6 +16,7 @@ import { createMetrics } from '../ops/metrics.js';
 import { createStallGuard } from '../ops/stallGuard.js';
 import { createDurableWriter } from '../store/createDurableWriter.js';
 import { openStore, type Store } from '../store/openStore.js';
+import { makePrivateDir } from '../store/privateFiles.js';
 import { enqueueOutbox } from '../store/outboxRepo.js';
 import { buildWebServer } from '../web/buildWebServer.js';
 import { webListenWarnings } from '../web/webListenWarnings.js';
@@ -60,7 +60,7 @@ export async function startMonitor(options: StartMonitorOptions) {
   const startedAt = now();
   const dbPath = resolve(config.storage.path);
   const dataDir = dirname(dbPath);
-  mkdirSync(dataDir, { recursive: true });
+  makePrivateDir(dataDir);
 
   const ackSecret = loadOrCreateAckSecret(dataDir);
   const noticeSettings = noticeSettingsFromConfig(config, ackSecret);
@@ -148,16 +148,18 @@ export async function startMonitor(options: StartMonitorOptions) {
 
   const read = createReadModel({ config, store, core: monitorCore, writer, mailFailing: () => worker.isFailing(), now });
   const commands = createWebCommands(config, monitorCore, now);
-  const web = buildWebServer({ config, db: store.db, read, commands, live, ackSecret, now, logger });
-  for (const warning of webListenWarnings(config)) logger.warn(warning);
-
-  // Prometheus scrape, without auth like /healthz: keep web.listen on a trusted network.
   const metrics = createMetrics();
   const syncMetrics = createMetricsSync({ config, core: monitorCore, store, metrics, mailFailures: () => mailFailures });
-  web.get('/metrics', async (_request, reply) => {
-    syncMetrics();
-    return reply.type(metrics.contentType).send(await metrics.render());
-  });
+  const metricsSource = {
+    contentType: metrics.contentType,
+    render: () => {
+      syncMetrics();
+      return metrics.render();
+    },
+  };
+  const web = buildWebServer({ config, db: store.db, read, commands, live, ackSecret, now, logger, metrics: metricsSource });
+  for (const warning of webListenWarnings(config)) logger.warn(warning);
+
   // Listen before any timer or decoder link starts, so a port already taken fails the start cleanly.
   let address: string | null = null;
   if (options.listen !== false) {
