@@ -49,3 +49,15 @@ export function composeSiteAlarmMail(site: { name: string; url: string | null },
     site.url ? `Acknowledge on the site's own pages: ${site.url}` : 'Acknowledge on the site\'s own pages.',
   ]);
 }
+
+/** Several alarms within the grouping window: one mail listing them all, worst first as the board does. */
+export function composeAlarmDigestMail(items: ReadonlyArray<{ site: { name: string; url: string | null }; event: EventPayload }>, envelope: EstateEnvelope): OutboxMessage {
+  const sites = new Set(items.map((i) => i.site.name));
+  const sorted = [...items].sort((a, b) => (a.event.alarm.priority === b.event.alarm.priority ? 0 : a.event.alarm.priority === 'alarm' ? -1 : 1));
+  const worst: Priority = sorted[0]?.event.alarm.priority ?? 'trouble';
+  return message(envelope, worst, `${items.length} alarms and trouble at ${sites.size} site${sites.size === 1 ? '' : 's'}`, [
+    `${items.length} conditions were raised within the grouping window:`,
+    ...sorted.map((i) => `${i.site.name}: ${i.event.alarm.priority} — ${CONDITION_TEXT[i.event.alarm.condition].words.split(':')[0]}${i.event.alarm.loopId ? ` (${i.event.alarm.loopId})` : ''} at ${i.event.at}${i.site.url ? ` — ${i.site.url}` : ''}`),
+    'Acknowledge each on its site\'s own pages.',
+  ]);
+}

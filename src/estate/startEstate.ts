@@ -12,7 +12,7 @@ import { openStore, type Store } from '../store/openStore.js';
 import { enqueueOutbox } from '../store/outboxRepo.js';
 import { initialEstateBook, isReporting, stepEstate, type EstateBook } from './estateBook.js';
 import type { EstateConfig } from './estateConfigSchema.js';
-import { composeReportingMail, composeSiteAlarmMail } from './estateMail.js';
+import { composeAlarmDigestMail, composeReportingMail, composeSiteAlarmMail } from './estateMail.js';
 import type { EstateView } from './estatePages.js';
 import { buildEstateWebServer } from './estateWebServer.js';
 
@@ -61,10 +61,38 @@ export async function startEstate(options: StartEstateOptions) {
     onRecovered: () => logger.info('estate mail flowing again'),
     logger,
   });
+  /** Sends until nothing is due: rows queued while a batch was going out are not left for the retry timer. */
+  const sendDue = async (): Promise<void> => {
+    try {
+      for (;;) {
+        const result = await worker.runOnce();
+        const next = worker.nextDueAt();
+        if (result.sent + result.failed === 0 || next === null || next > now()) return;
+      }
+    } catch (err) {
+      logger.error({ err }, `estate mail round failed: ${(err as Error).message}`);
+    }
+  };
   const mail = (message: Parameters<typeof enqueueOutbox>[1]) => {
     if (to.length === 0) return;
     store.transaction(() => enqueueOutbox(store.db, message, now()));
-    void worker.runOnce().catch((err: unknown) => logger.error({ err }, `estate mail round failed: ${(err as Error).message}`));
+    void sendDue();
+  };
+
+  // Storm control, as on a site: alarms raised within mail.group_window go out as one mail.
+  let held: Array<{ siteId: string; event: EventPayload }> = [];
+  let heldTimer: NodeJS.Timeout | null = null;
+  const flushHeld = () => {
+    heldTimer = null;
+    const batch = held;
+    held = [];
+    if (batch.length === 0) return;
+    const envelope = { from: config.mail.from, to, messageId: newMessageId() };
+    mail(batch.length === 1 ? composeSiteAlarmMail(siteInfo.get(batch[0]!.siteId)!, batch[0]!.event, envelope) : composeAlarmDigestMail(batch.map((b) => ({ site: siteInfo.get(b.siteId)!, event: b.event })), envelope));
+  };
+  const holdForMail = (siteId: string, event: EventPayload) => {
+    held.push({ siteId, event });
+    heldTimer ??= setTimeout(flushHeld, config.mail.group_window);
   };
 
   const siteInfo = new Map(config.sites.map((s) => [s.id, { name: s.name ?? s.id, url: s.url ?? null }]));
@@ -101,9 +129,7 @@ export async function startEstate(options: StartEstateOptions) {
       }
       recent.push({ siteId: effect.siteId, event: effect.event });
       if (recent.length > RECENT_EVENTS) recent.shift();
-      if (effect.event.kind === 'raised' && effect.event.alarm.priority !== 'system') {
-        mail(composeSiteAlarmMail(siteInfo.get(effect.siteId)!, effect.event, { from: config.mail.from, to, messageId: newMessageId() }));
-      }
+      if (effect.event.kind === 'raised' && effect.event.alarm.priority !== 'system') holdForMail(effect.siteId, effect.event);
     }
     for (const listener of listeners) listener();
   });
@@ -122,7 +148,7 @@ export async function startEstate(options: StartEstateOptions) {
     }
     for (const listener of listeners) listener();
   }, CHECK_MS);
-  const retry = setInterval(() => void worker.runOnce().catch(() => undefined), 5000);
+  const retry = setInterval(() => void sendDue(), 5000);
 
   const view = (): EstateView => ({
     estateName: config.estate.name,
@@ -160,6 +186,8 @@ export async function startEstate(options: StartEstateOptions) {
     },
     runMail: () => worker.runOnce(),
     async stop(): Promise<void> {
+      if (heldTimer) clearTimeout(heldTimer);
+      flushHeld();
       clearInterval(check);
       clearInterval(retry);
       await client.endAsync().catch(() => undefined);

@@ -54,6 +54,7 @@ escalation: { default: { steps: [{ after: 0m, notify: [steward] }] } }
 mail:
   from: "estate <estate@example.org>"
   smtp: { host: 127.0.0.1, port: ${smtp.port}, user: monitor, pass: pw-test }
+  group_window: 0s
 storage: { path: ${join(dir, 'estate.db')} }
 web: { listen: "127.0.0.1:0" }
 `,
