@@ -111,8 +111,17 @@ export function startSitePublisher(options: SitePublisherOptions) {
             client.publishAsync(topics.events, JSON.stringify(event), { qos: 1, retain: false, properties: { messageExpiryInterval: expiry, contentType: 'application/json' } }).then(() => event.eventNo),
           );
           // Acknowledged in order on one connection: everything up to the last PUBACK has arrived.
-          const lost = new Promise<'lost'>((resolve) => client.once('close', () => resolve('lost')));
-          const outcome = await Promise.race([Promise.all(acks), lost]).catch(() => 'lost' as const);
+          let onClose: () => void = () => undefined;
+          const lost = new Promise<'lost'>((resolve) => {
+            onClose = () => resolve('lost');
+            client.once('close', onClose);
+          });
+          // A refused publish (an ACL that does not let this site write its events topic) lands here too: logged, retried later.
+          const outcome = await Promise.race([Promise.all(acks), lost]).catch((err: unknown) => {
+            logger.error({ err }, `mqtt: the broker refused an event: ${(err as Error).message}`);
+            return 'lost' as const;
+          });
+          client.removeListener('close', onClose);
           if (outcome === 'lost') break;
           markAlarmEventsSent(db, events[events.length - 1]!.eventNo, now());
         }
