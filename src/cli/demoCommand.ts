@@ -15,7 +15,8 @@ export const DEMO_USER = 'demo';
  * minutes one loop trips and one cable is cut and repaired. Prints where to look and how to log in.
  */
 export const demoCommand: CliCommand = async (argv, io) => {
-  const { values } = parseArgs({ args: argv, options: { config: { type: 'string' }, listen: { type: 'string' } } });
+  const { values } = parseArgs({ args: argv, options: { config: { type: 'string' }, listen: { type: 'string' }, estate: { type: 'boolean', default: false } } });
+  if (values.estate) return (await import('./estateDemo.js')).runEstateDemo(io, values.listen); // issue 12
   const file = values.config ?? join(findPackageRoot(), 'config', 'demo.yaml');
   const loaded = loadConfigForCli(file, io);
   if (!loaded) return 2;

@@ -20,6 +20,7 @@ const COMMANDS: Record<string, { summary: string; load: () => Promise<CliCommand
   token: { summary: 'manage API tokens: token create|revoke|list', load: async () => (await import('./tokenCommand.js')).tokenCommand },
   doctor: { summary: 'check config, decoder ports, mail, web port, disk and clock', load: async () => (await import('./doctorCommand.js')).doctorCommand },
   backup: { summary: 'online backup of the database: backup FILE', load: async () => (await import('./backupCommand.js')).backupCommand },
+  estate: { summary: 'estate board for many sites over MQTT: estate --config FILE', load: async () => (await import('./estateCommand.js')).estateCommand },
   restore: { summary: 'restore the database from a backup (monitor stopped): restore FILE', load: async () => (await import('./restoreCommand.js')).restoreCommand },
 };
 

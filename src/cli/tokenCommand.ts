@@ -6,7 +6,8 @@ import { accountNameProblem } from '../web/auth/accountName.js';
 import { isUserRole } from '../web/auth/roles.js';
 import { newApiToken, sha256Hex } from '../web/auth/secretToken.js';
 import type { CliCommand } from './cliTypes.js';
-import { DEFAULT_CONFIG_PATH, loadConfigForCli } from './loadConfigForCli.js';
+import { loadAccountsConfigForCli } from './loadAccountsConfig.js';
+import { DEFAULT_CONFIG_PATH } from './loadConfigForCli.js';
 import { openStoreForAccounts } from './userCommand.js';
 
 const USAGE = `usage:
@@ -41,7 +42,7 @@ export const tokenCommand: CliCommand = async (argv, io) => {
     io.stderr.write(`pairwatch token ${action}: --role "${role}" is not one of ${USER_ROLES.join(', ')}\n`);
     return 2;
   }
-  const config = loadConfigForCli(values.config ?? DEFAULT_CONFIG_PATH, io);
+  const config = loadAccountsConfigForCli(values.config ?? DEFAULT_CONFIG_PATH, io);
   if (!config) return 2;
 
   let store: Store | null = null;

@@ -8,7 +8,8 @@ import { accountNameProblem } from '../web/auth/accountName.js';
 import { hashPassword, passwordProblem } from '../web/auth/passwordHash.js';
 import { isUserRole } from '../web/auth/roles.js';
 import type { CliCommand, CliIo } from './cliTypes.js';
-import { DEFAULT_CONFIG_PATH, loadConfigForCli } from './loadConfigForCli.js';
+import { loadAccountsConfigForCli } from './loadAccountsConfig.js';
+import { DEFAULT_CONFIG_PATH } from './loadConfigForCli.js';
 
 const USAGE = `usage:
   pairwatch user add NAME --role viewer|operator|admin [--password-stdin] [--config FILE]
@@ -86,7 +87,7 @@ async function newPasswordHash(io: CliIo, fromStdin: boolean) {
 }
 
 /** Opens the site's database beside a running daemon (no lock: this only touches the user tables). */
-export function openStoreForAccounts(config: SiteConfig): Store {
+export function openStoreForAccounts(config: Pick<SiteConfig, 'storage'> | { storage: { path: string } }): Store {
   return openStore({ path: resolve(config.storage.path), lock: false });
 }
 
@@ -106,7 +107,7 @@ export const userCommand: CliCommand = async (argv, io) => {
     io.stderr.write(USAGE);
     return 2;
   }
-  const config = loadConfigForCli(values.config ?? DEFAULT_CONFIG_PATH, io);
+  const config = loadAccountsConfigForCli(values.config ?? DEFAULT_CONFIG_PATH, io);
   if (!config) return 2;
   const fromStdin = values['password-stdin'] ?? false;
 

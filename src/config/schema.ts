@@ -170,6 +170,33 @@ const webSchema = z
   })
   .prefault({});
 
+// --- mqtt (issue 12: publishing to an MQTT 5 broker) -------------------------------------------
+const mqttSchema = z.strictObject({
+  url: z.string().regex(/^mqtts?:\/\/[^\s/]+$/, 'must be mqtt://HOST:PORT or mqtts://HOST:PORT (TLS)'),
+  /** Default: pairwatch-<site_id>. Must be unique on the broker. */
+  client_id: z.string().min(1).max(128).optional(),
+  username: z.string().min(1).optional(),
+  /** Name of an environment variable holding the broker password. */
+  pass_env: z.string().regex(/^[A-Z_][A-Z0-9_]*$/, 'must be an environment variable name').optional(),
+  /** CA certificate file for mqtts:// to a broker with a private CA. */
+  ca: z.string().min(1).optional(),
+  prefix: z.string().regex(/^[A-Za-z0-9_-]+(\/[A-Za-z0-9_-]+)*$/, 'must be topic levels of letters, digits, "-" or "_" joined by "/"').default('pairwatch'),
+  site_id: id,
+  /** MQTT keep-alive; the broker declares the site offline within 1.5 times this after an unclean death. */
+  keepalive: duration.refine((ms) => ms >= 1000 && ms <= 65_535_000, 'must be between 1s and 18h').default(30_000),
+  /** How often the heartbeat goes out. Default: the keep-alive. */
+  heartbeat: duration.refine((ms) => ms >= 1000, 'must be at least 1s').optional(),
+  /** MQTT 5 message expiry of alarm events held by the broker for an absent subscriber. */
+  event_expiry: duration.refine((ms) => ms >= 1000, 'must be at least 1s').default(86_400_000),
+  /** MQTT 5 session expiry: how long the broker keeps this site's session (command subscription) while it is away. */
+  session_expiry: duration.default(3_600_000),
+  /** Not connected for this long raises the system trouble "broker unreachable". */
+  unreachable_after: duration.default(60_000),
+  /** Accept acknowledge and shelve over the command topic (each command carries an API token). */
+  accept_commands: z.boolean().default(false),
+});
+// --- end mqtt ------------------------------------------------------------------------------------
+
 export const siteConfigSchema = z.strictObject({
   site: z.strictObject({
     name: z.string().min(1).max(80),
@@ -183,6 +210,7 @@ export const siteConfigSchema = z.strictObject({
   report: reportSchema,
   storage: storageSchema,
   web: webSchema,
+  mqtt: mqttSchema.optional(),
 });
 
 export type SiteConfigInput = z.input<typeof siteConfigSchema>;
@@ -193,3 +221,4 @@ export type ContactConfig = SiteConfig['contacts'][number];
 export type EscalationPolicyConfig = SiteConfig['escalation'][string];
 export type MailConfig = SiteConfig['mail'];
 export type WebConfig = SiteConfig['web'];
+export type MqttConfig = NonNullable<SiteConfig['mqtt']>;

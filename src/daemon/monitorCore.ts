@@ -46,6 +46,8 @@ export interface MonitorCoreOptions {
   now: number;
   /** Told after every committed change, so the board can refresh. */
   onChange?: (what: 'loops' | 'alarms') => void;
+  /** Runs inside the transaction that commits alarm effects (the MQTT event outbox rides along). */
+  onAlarmEffects?: (s: Store, effects: readonly AlarmEffect[], now: number) => void;
 }
 
 const EDGE_BATCH_ROWS = 2000;
@@ -117,6 +119,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
       else if (effect.kind === 'audit') s.audit.insert(effect.entry);
       else queueNotices(s.db, effect, now, config.mail.group_window);
     }
+    if (effects.length > 0) options.onAlarmEffects?.(s, effects, now);
   }
 
   /** Runs alarm inputs through the engine; returns the effects to commit (the book is updated at once). */

@@ -27,6 +27,9 @@ import { createWebCommands } from './createWebCommands.js';
 import { gatherDailyReport } from './gatherDailyReport.js';
 import { composeStorageAlert } from './composeStorageAlert.js';
 import { createMonitorCore } from './monitorCore.js';
+import { alarmEventsOf } from '../mqtt/alarmEvents.js';
+import { enqueueAlarmEvents } from '../mqtt/mqttOutbox.js';
+import { startSitePublisher, type SitePublisher } from '../mqtt/sitePublisher.js';
 import { runMaintenance } from './runMaintenance.js';
 
 /**
@@ -108,6 +111,7 @@ export async function startMonitor(options: StartMonitorOptions) {
   });
   const live = createLiveFeed();
   let onAlarmsChanged: () => void = () => undefined;
+  let publisher: SitePublisher | null = null; // mqtt (issue 12)
   core = createMonitorCore({
     config,
     store,
@@ -117,7 +121,10 @@ export async function startMonitor(options: StartMonitorOptions) {
     onChange: (what) => {
       live.publish({ type: what });
       if (what === 'alarms') onAlarmsChanged();
+      publisher?.changed();
+      if (what === 'alarms') publisher?.eventsQueued();
     },
+    ...(config.mqtt && { onAlarmEffects: (s, effects, t) => void enqueueAlarmEvents(s.db, alarmEventsOf(effects), t) }),
   });
   const monitorCore = core;
 
@@ -174,6 +181,37 @@ export async function startMonitor(options: StartMonitorOptions) {
     }
     logger.info({ address }, `web server listening on ${address}`);
   }
+
+  // --- mqtt (issue 12): states and alarm events to an MQTT 5 broker -------------------------------
+  const mqttConfig = config.mqtt;
+  if (mqttConfig) {
+    const started = () => startSitePublisher({
+      config: mqttConfig,
+      site: { name: config.site.name, timezone: config.site.timezone, url: config.web.public_url ?? null },
+      db: store.db,
+      read,
+      commands,
+      now,
+      logger,
+      version: options.version ?? null,
+      startedAt,
+      env,
+      initiallyUnreachable: monitorCore.openAlarms().some((a) => a.condition === 'broker-unreachable' && a.active),
+      onUnreachable: (reason) => {
+        logger.error({ reason }, `broker unreachable: ${reason}`);
+        monitorCore.raiseSystem('broker-unreachable', now());
+      },
+      onReachable: () => monitorCore.clearSystem('broker-unreachable', now()),
+    });
+    try {
+      publisher = started();
+    } catch (err) {
+      await web.close().catch(() => undefined);
+      store.close();
+      throw err;
+    }
+  }
+  // --- end mqtt ------------------------------------------------------------------------------------
 
   const stallGuard = createStallGuard({
     onStall: (report) => {
@@ -345,12 +383,13 @@ export async function startMonitor(options: StartMonitorOptions) {
     await Promise.race([runNotifications(true), new Promise((r) => (giveUp = setTimeout(r, remaining)))]);
     clearTimeout(giveUp);
     await web.close().catch(() => undefined);
+    await publisher?.stop(); // mqtt (issue 12)
     writer.flush();
     store.close();
     logger.info({ reason }, 'monitor stopped');
   }
 
-  return { core: monitorCore, store, writer, web, worker, read, commands, address, stop, runNotifications, dataDir, mailFolder: config.mail.smtp ? null : resolve(dropFolderFor(config)) };
+  return { core: monitorCore, store, writer, web, worker, read, commands, address, stop, mqtt: publisher, runNotifications, dataDir, mailFolder: config.mail.smtp ? null : resolve(dropFolderFor(config)) };
 }
 
 export type Monitor = Awaited<ReturnType<typeof startMonitor>>;

@@ -8,6 +8,7 @@ import { run as ingest } from '../../bench/ingest.bench.js';
 import { SCENARIOS } from '../../bench/scenarios.js';
 import { run as soak } from '../../bench/soak.bench.js';
 import { run as store } from '../../bench/store.bench.js';
+import { run as estate } from '../../bench/estate.bench.js';
 
 /**
  * Runs every benchmark scenario in its smoke mode, in-process, so the benches cannot rot. Only the
@@ -20,6 +21,7 @@ const scenarios: Array<[string, BenchScenario]> = [
   ['alarm-to-mail', alarmToMail],
   ['api', api],
   ['soak', soak],
+  ['estate', estate],
 ];
 
 function expectWellFormed(result: BenchResult, name: string): void {
