@@ -82,7 +82,8 @@ export function crossCheck(input: CrossCheckInput | SiteConfig): ConfigProblem[]
     }
   });
 
-  config.decoders.forEach((decoder, i) => {
+  // With no loop list at all the shape check has said so already.
+  if (config.loops.length > 0) config.decoders.forEach((decoder, i) => {
     if (!decoder) return;
     const used = config.loops.some((loop) => loop?.decoder === decoder.id) || config.writtenIds.loopDecoders.has(decoder.id);
     if (!used) add(`decoders[${i}]`, `decoder "${decoder.id}" has no loops`);

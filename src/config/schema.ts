@@ -205,7 +205,7 @@ const mailbox = z.string().superRefine((text, ctx) => {
 
 const mailSchema = z
   .strictObject({
-    from: mailbox,
+    from: mailbox.default('pairwatch <pairwatch@localhost>'),
     smtp: smtpSchema.optional(),
     /** Where mail goes as .eml files when there is no SMTP server (the demo). Default: <data>/outbox-mail */
     drop_folder: z.string().min(1).optional(),
