@@ -3,6 +3,8 @@ import { checkSurroundings } from '../config/checkSurroundings.js';
 import { defineCommand, UsageError } from './defineCommand.js';
 import { DEFAULT_CONFIG_PATH, loadConfigForCli } from './loadConfigForCli.js';
 
+const count = (n: number, word: string) => `${n} ${word}${n === 1 ? '' : 's'}`;
+
 const USAGE = `usage: pairwatch check-config [FILE]
   Validates a site config (default ${DEFAULT_CONFIG_PATH}; --config FILE works too) and prints every problem
   as "path: reason", or a one-line summary. Also checks what the monitor would refuse at start: a storage
@@ -24,8 +26,8 @@ export const checkConfigCommand = defineCommand({ name: 'check-config', usage: U
   }
   const policies = Object.keys(config.escalation);
   io.stdout.write(
-    `${file}: ok — site "${config.site.name}", ${config.decoders.length} decoder(s), ${config.loops.length} loop(s), ` +
-      `${config.contacts.length} contact(s), escalation ${policies.length ? policies.join(', ') : '(built-in default)'}, ` +
+    `${file}: ok — site "${config.site.name}", ${count(config.decoders.length, 'decoder')}, ${count(config.loops.length, 'loop')}, ` +
+      `${count(config.contacts.length, 'contact')}, escalation ${policies.length ? policies.join(', ') : '(built-in default)'}, ` +
       `mail ${config.mail.smtp ? `via ${config.mail.smtp.host}:${config.mail.smtp.port}` : 'to .eml files (no smtp)'}\n`,
   );
   return 0;
