@@ -145,7 +145,6 @@ export async function startMonitor(options: StartMonitorOptions) {
       logger.info('mail flowing again');
       monitorCore.clearSystem('mail-failing', now());
     },
-    onSent: (row) => logger.info({ messageId: row.messageId, to: row.to, subject: row.subject }, `mail sent: ${row.subject}`),
     onFailed: (row, err) => {
       mailFailures += 1;
       logger.warn({ messageId: row.messageId, err: err.message }, `mail not sent yet: ${err.message}`);
@@ -172,14 +171,14 @@ export async function startMonitor(options: StartMonitorOptions) {
   if (options.listen !== false) {
     const [host, portText] = splitListen(config.web.listen);
     try {
-      address = await web.listen({ host, port: Number(portText) });
+      // fastify logs the one "listening" line itself; ours would be a second line for the same event.
+      address = await web.listen({ host, port: Number(portText), listenTextResolver: (at) => `web server listening on ${at}` });
     } catch (err) {
       await web.close().catch(() => undefined);
       store.close();
       const code = (err as NodeJS.ErrnoException).code;
       throw Object.assign(new Error(`web.listen: cannot listen on ${config.web.listen}: ${code === 'EADDRINUSE' ? 'the port is already in use (is pairwatch already running?)' : (err as Error).message}`), { code: 'PW_WEB_LISTEN_FAILED' });
     }
-    logger.info({ address }, `web server listening on ${address}`);
   }
 
   // --- mqtt (issue 12): states and alarm events to an MQTT 5 broker -------------------------------
@@ -363,7 +362,7 @@ export async function startMonitor(options: StartMonitorOptions) {
   );
 
   if (options.announce !== false) lifecycleMail('started', null);
-  logger.info({ site: config.site.name, loops: config.loops.length, decoders: config.decoders.length }, `monitoring ${config.site.name}: ${config.loops.length} loop(s)`);
+  logger.info({ site: config.site.name, loops: config.loops.length, decoders: config.decoders.length }, `monitoring ${config.site.name}: ${config.loops.length} ${config.loops.length === 1 ? 'loop' : 'loops'}`);
 
   /** Graceful stop: finish writes, queue and try to send "monitoring stopped", close the database. */
   async function stop(reason: string, deadlineMs = 8000): Promise<void> {

@@ -28,7 +28,7 @@ export function parseEstateConfig(text: string, file = '<estate config>'): Estat
   const read = readYamlMapping(text, 'keys such as estate:, mqtt:, sites:');
   if (!read.ok) throw new ConfigError(file, read.problems);
   const result = estateConfigSchema.safeParse(read.value);
-  if (!result.success) throw new ConfigError(file, describeIssues(result.error.issues));
+  if (!result.success) throw new ConfigError(file, describeIssues(result.error.issues, read.value));
   const problems = crossCheckEstate(result.data);
   if (problems.length > 0) throw new ConfigError(file, problems);
   return result.data;

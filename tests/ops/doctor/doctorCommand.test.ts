@@ -54,7 +54,7 @@ describe('pairwatch doctor', () => {
     cleanups.push(() => pty.close());
     cleanups.push(runDecoder(pty));
     const { io, all: out } = captureCliIo();
-    const code = await doctorCommand(['--config', await siteFile(dir, pty.port), '--listen', '2'], io);
+    const code = await doctorCommand(['--config', await siteFile(dir, pty.port), '--drift-seconds', '2'], io);
     const text = out();
     expect(text).toMatch(/^ok {4}config: .* valid \(1 decoder, 2 loops\)/m);
     expect(text).toMatch(/^ok {4}decoder barn port: .* exists/m);
@@ -143,7 +143,7 @@ describe('pairwatch doctor', () => {
     await new Promise<void>((resolve) => box.listen(0, '127.0.0.1', () => resolve()));
     cleanups.push(() => new Promise<void>((resolve) => box.close(() => resolve())));
     const { io, all: out } = captureCliIo();
-    const code = await doctorCommand(['--config', await siteFile(dir, `tcp://127.0.0.1:${(box.address() as AddressInfo).port}`), '--listen', '2'], io);
+    const code = await doctorCommand(['--config', await siteFile(dir, `tcp://127.0.0.1:${(box.address() as AddressInfo).port}`), '--drift-seconds', '2'], io);
     expect(out()).toMatch(/^ok {4}decoder barn port: tcp:\/\/127\.0\.0\.1:\d+ accepted a connection/m);
     expect(out()).toMatch(/^ok {4}decoder barn protocol: speaks protocol v1 .*2 loops/m);
     expect(code).toBe(0);
@@ -151,8 +151,8 @@ describe('pairwatch doctor', () => {
 
   it('rejects bad usage with exit 2', async () => {
     const { io, all: out } = captureCliIo();
-    expect(await doctorCommand(['--listen', 'soon'], io)).toBe(2);
-    expect(out()).toContain('--listen must be a number');
+    expect(await doctorCommand(['--drift-seconds', 'soon'], io)).toBe(2);
+    expect(out()).toContain('--drift-seconds must be a number');
     expect(await doctorCommand(['--colour'], io)).toBe(2);
   });
 });
