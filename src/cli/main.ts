@@ -20,6 +20,7 @@ const COMMANDS: Record<string, { summary: string; load: () => Promise<CliCommand
   token: { summary: 'manage API tokens: token create|revoke|list', load: async () => (await import('./tokenCommand.js')).tokenCommand },
   doctor: { summary: 'check config, decoder ports, mail, web port, disk and clock', load: async () => (await import('./doctorCommand.js')).doctorCommand },
   backup: { summary: 'online backup of the database: backup FILE', load: async () => (await import('./backupCommand.js')).backupCommand },
+  conformance: { summary: 'check a decoder against protocol v1, rule by rule: conformance PORT [--seconds N]', load: async () => (await import('./conformanceCommand.js')).conformanceCommand },
   restore: { summary: 'restore the database from a backup (monitor stopped): restore FILE', load: async () => (await import('./restoreCommand.js')).restoreCommand },
 };
 

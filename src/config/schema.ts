@@ -60,7 +60,7 @@ const decoderSchema = z.strictObject({
       (p) => p.startsWith('/') || p.startsWith('tcp://') || p.startsWith('sim:') || /^COM\d+$/.test(p),
       'must be a device path (/dev/…), tcp://host:port, or sim:FILE',
     ),
-  baud: z.number().int().positive().default(115200),
+  baud: z.number().int().positive().default(250000),
   inputs: z.number().int().min(1).max(64).optional(),
   /** Host-clock silence after which the decoder (and its loops) count as offline. */
   silence: duration.default(2000),
