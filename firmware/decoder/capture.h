@@ -18,10 +18,11 @@ typedef struct {
 	uint32_t time_us;
 	uint8_t ports[3]; /* PINB, PINC, PIND */
 	uint8_t kind;
+	uint8_t weight; /* lines it may still produce, counted against the ring's line budget */
 } entry_t;
 
-/* Ring size: a power of two; 128 entries of 8 bytes is half the RAM. */
-#define RING_SIZE 128
+/* Ring size: a power of two; the line budget in capture.c is what limits it in a burst. */
+#define RING_SIZE 64
 
 /* Starts the clock at clock_start_us; fills ports with the inputs as they were when watching began
  * (interrupts still off) and returns the time of that instant. */
