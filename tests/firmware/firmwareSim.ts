@@ -84,6 +84,8 @@ export interface FirmwareRunOptions {
   hangAtUs?: number;
   /** Supply changes, in mV, at waveform µs. */
   supply?: Array<{ atUs: number; mv: number }>;
+  /** Also write the UART bytes, as they are sent, into this file (a pseudo-terminal). */
+  live?: string;
 }
 
 export interface CapturedLine {
@@ -149,7 +151,7 @@ export async function runFirmware(options: FirmwareRunOptions): Promise<Capture>
   const dir = mkdtempSync(join(tmpdir(), 'pw-fw-'));
   try {
     writeFileSync(join(dir, 'script'), `${script.join('\n')}\n`);
-    await run(HARNESS, [ELF, join(dir, 'script'), join(dir, 'capture')], { maxBuffer: 1 << 20 });
+    await run(HARNESS, [ELF, join(dir, 'script'), join(dir, 'capture'), ...(options.live ? [options.live] : [])], { maxBuffer: 1 << 20 });
     return parseCapture(readFileSync(join(dir, 'capture'), 'utf8'), clockStartUs);
   } finally {
     rmSync(dir, { recursive: true, force: true });

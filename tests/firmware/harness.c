@@ -3,7 +3,11 @@
  * drives the comparator pins at exact cycle times from a script, and writes every UART byte with the
  * cycle it left on. Used by tests/firmware (vitest) and bench/firmware.bench.ts.
  *
- *   harness FIRMWARE.elf SCRIPT CAPTURE
+ *   harness FIRMWARE.elf SCRIPT CAPTURE [LIVE]
+ *
+ * LIVE, when given, is a file (a pseudo-terminal) that gets each UART byte as it is sent, line by
+ * line: the simulated board's USB-serial bridge. The run is not paced to the wall clock; lines carry
+ * decoder time, so the monitor reading them does not care how fast they come.
  *
  * SCRIPT, one command a line, times in CPU cycles, sorted by cycle ('#' starts a comment):
  *   until CYCLE               stop there
@@ -23,6 +27,8 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <fcntl.h>
+#include <unistd.h>
 #include <sim_avr.h>
 #include <sim_elf.h>
 #include <sim_io.h>
@@ -47,6 +53,9 @@ static size_t event_count, next_event;
 static int levels[3][8]; /* current level of each scripted pin, for re-applying after a reset */
 static int reset_seen;
 static void (*core_reset)(struct avr_t *);
+static int live_fd = -1;
+static char live_line[256];
+static size_t live_len;
 
 static int port_index(char port) { return port == 'B' ? 0 : port == 'C' ? 1 : port == 'D' ? 2 : -1; }
 
@@ -98,6 +107,16 @@ static void on_uart_byte(struct avr_irq_t *irq, uint32_t value, void *param)
 	(void)irq;
 	(void)param;
 	fprintf(capture, "tx %llu %u\n", (unsigned long long)avr->cycle, value & 0xFF);
+	if (live_fd < 0) return;
+	live_line[live_len++] = (char)value;
+	if ((value & 0xFF) == '\n' || live_len == sizeof live_line) {
+		for (size_t done = 0; done < live_len;) {
+			ssize_t n = write(live_fd, live_line + done, live_len - done);
+			if (n <= 0) break;
+			done += (size_t)n;
+		}
+		live_len = 0;
+	}
 }
 
 static void on_tccr1b(struct avr_irq_t *irq, uint32_t value, void *param)
@@ -122,7 +141,8 @@ static void fail(const char *what)
 
 int main(int argc, char **argv)
 {
-	if (argc != 4) fail("usage: harness FIRMWARE.elf SCRIPT CAPTURE");
+	if (argc != 4 && argc != 5) fail("usage: harness FIRMWARE.elf SCRIPT CAPTURE [LIVE]");
+	if (argc == 5 && (live_fd = open(argv[4], O_WRONLY | O_NOCTTY)) < 0) fail("cannot open the live output");
 	elf_firmware_t firmware;
 	memset(&firmware, 0, sizeof firmware);
 	if (elf_read_firmware(argv[1], &firmware) != 0) fail("cannot read the firmware .elf");
