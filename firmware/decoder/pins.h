@@ -5,7 +5,7 @@
  *   pulse line:   current above the high threshold   (1 here means band H)
  * Band = pulse ? H : standby ? N : O. PD0/PD1 are the UART, PB6/PB7 the crystal, PC6 reset,
  * PB5 (the board LED on common boards) and PC5 are left free, so all 16 lines fit on the rest.
- * The README's wiring table is this table; tests/firmware/pinMap.ts is its copy for the harness.
+ * The README's wiring table is this table; bench/firmwarePins.ts is its copy for the simulator harness.
  */
 #ifndef PINS_H
 #define PINS_H

@@ -11,7 +11,7 @@ import type { Frame } from '../../src/protocol/frame.js';
 import { parseScenario } from '../../src/sim/loadScenario.js';
 import { scenarioSchema, type ScenarioInput } from '../../src/sim/scenarioSchema.js';
 import { findPackageRoot } from '../../src/store/packageRoot.js';
-import { buildFirmware, CYCLES_PER_US, runFirmware, truthFromPins, waveformFromScenario, type Capture, type Waveform } from './firmwareSim.js';
+import { buildFirmware, CYCLES_PER_US, runFirmware, truthFromPins, waveformFromScenario, type Capture, type Waveform } from '../../bench/firmwareSim.js';
 
 /**
  * The real decoder firmware (firmware/decoder) under simavr, driven by waveforms from pairwatch's own

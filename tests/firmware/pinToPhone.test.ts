@@ -11,7 +11,7 @@ import { startSocatPair, type SocatPair } from '../helpers/socatPair.js';
 import { stopChild } from '../helpers/stopChild.js';
 import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
 import { waitFor } from '../helpers/waitFor.js';
-import { buildFirmware, runFirmware, waveformFromScenario } from './firmwareSim.js';
+import { buildFirmware, runFirmware, waveformFromScenario } from '../../bench/firmwareSim.js';
 
 /**
  * Pin to phone: the real firmware under simavr, its UART written into a pseudo-terminal (socat) as a

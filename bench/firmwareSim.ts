@@ -3,16 +3,16 @@ import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { promisify } from 'node:util';
-import type { Band } from '../../src/model/band.js';
-import { parseLine } from '../../src/protocol/parseLine.js';
-import { createSimulator } from '../../src/sim/createSimulator.js';
-import type { Scenario } from '../../src/sim/scenarioSchema.js';
-import { findPackageRoot } from '../../src/store/packageRoot.js';
-import { LOOP_PINS, levelsFor } from './pinMap.js';
+import type { Band } from '../src/model/band.js';
+import { parseLine } from '../src/protocol/parseLine.js';
+import { createSimulator } from '../src/sim/createSimulator.js';
+import type { Scenario } from '../src/sim/scenarioSchema.js';
+import { findPackageRoot } from '../src/store/packageRoot.js';
+import { LOOP_PINS, levelsFor } from './firmwarePins.js';
 
 /**
  * Runs the real decoder firmware (.elf) under simavr through tests/firmware/harness.c: builds both
- * with the firmware's Makefile, writes the harness script (pin changes at exact cycles), and reads
+ * with the firmware's Makefile (under flock, so parallel test files never build at once), writes the harness script (pin changes at exact cycles), and reads
  * back every UART byte with its cycle. Shared by tests/firmware and bench/firmware.bench.ts.
  */
 export const F_CPU = 16_000_000;
@@ -28,7 +28,7 @@ let built = false;
 /** `make -C firmware/decoder all harness`, once per process (make itself skips what is up to date). */
 export function buildFirmware(): void {
   if (built) return;
-  execFileSync('make', ['-s', '-C', FIRMWARE_DIR, 'all', 'harness'], { stdio: ['ignore', 'ignore', 'pipe'] });
+  execFileSync('flock', [join(tmpdir(), 'pairwatch-firmware-build.lock'), 'make', '-s', '-C', FIRMWARE_DIR, 'all', 'harness'], { stdio: ['ignore', 'ignore', 'pipe'] });
   built = true;
 }
 

@@ -1,8 +1,8 @@
-import type { Band } from '../../src/model/band.js';
+import type { Band } from '../src/model/band.js';
 
 /**
- * The decoder's wiring table (firmware/decoder/pins.h, README "Wiring the front end"), as the harness
- * drives it: per loop, the standby comparator line and the pulse comparator line, both active high.
+ * The decoder's wiring table (firmware/decoder/pins.h, README "The decoder firmware"), as the
+ * simulator harness drives it: per loop, the standby comparator line and the pulse comparator line, both active high.
  */
 export type Pin = { port: 'B' | 'C' | 'D'; bit: number };
 export const LOOP_PINS: ReadonlyArray<{ standby: Pin; pulse: Pin }> = [
