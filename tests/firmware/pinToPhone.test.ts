@@ -101,8 +101,8 @@ web: { listen: "127.0.0.1:0" }
         { at: 2500, action: 'short', input: 5 },
       ],
     });
-    const waveform = waveformFromScenario(scenario, 0, 6_000_000);
-    await runFirmware({ waveform, untilUs: 6_000_000, live: socat.b });
+    const waveform = waveformFromScenario(scenario, 0, 5_000_000);
+    await runFirmware({ waveform, untilUs: 5_000_000, live: socat.b });
 
     const db = new Database(join(tmp.dir, 'site.db'), { readonly: true, fileMustExist: true });
     try {
@@ -129,7 +129,7 @@ describe('pairwatch conformance on a pseudo-terminal', () => {
     const tmp = makeTempDir('pairwatch-conformance-');
     const socat = await startSocatPair(tmp.dir);
     try {
-      const child = spawn(process.execPath, [CLI, 'conformance', socat.a, '--seconds', '6'], { stdio: ['ignore', 'pipe', 'pipe'] });
+      const child = spawn(process.execPath, [CLI, 'conformance', socat.a, '--seconds', '4'], { stdio: ['ignore', 'pipe', 'pipe'] });
       const run = collect(child);
       await waitFor(() => holdsPort(child, socat.a), 20_000, () => `conformance to open the port: ${run.out()}`);
       await feed(socat.b);
@@ -142,9 +142,9 @@ describe('pairwatch conformance on a pseudo-terminal', () => {
   }
 
   it('passes every rule on the simulated firmware', async () => {
-    const waveform = waveformFromScenario(scenarioSchema.parse({ decoder: { inputs: 8 }, loops }), 0, 1_500_000);
+    const waveform = waveformFromScenario(scenarioSchema.parse({ decoder: { inputs: 8 }, loops }), 0, 1_000_000);
     const { code, out } = await conformance(async (port) => {
-      await runFirmware({ waveform, untilUs: 1_500_000, live: port });
+      await runFirmware({ waveform, untilUs: 1_000_000, live: port });
     });
     expect(out).toMatch(/HELLO 1 8 pairwatch-avr-/);
     expect(out.split('\n').filter((l) => /^(pass|FAIL) /.test(l))).toHaveLength(9);
