@@ -12,4 +12,5 @@ export const SCENARIOS: Record<BenchName, () => Promise<BenchScenario>> = {
   api: async () => (await import('./api.bench.js')).run,
   soak: async () => (await import('./soak.bench.js')).run,
   estate: async () => (await import('./estate.bench.js')).run,
+  firmware: async () => (await import('./firmware.bench.js')).run,
 };

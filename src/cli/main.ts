@@ -26,6 +26,7 @@ const COMMANDS: Record<string, { summary: string; load: () => Promise<CliCommand
   token: { summary: 'API tokens: token create, token revoke, token list', load: async () => (await import('./tokenCommand.js')).tokenCommand },
   doctor: { summary: 'check config, decoder ports, mail, web port, disk and clock', load: async () => (await import('./doctorCommand.js')).doctorCommand },
   backup: { summary: 'online backup of the database: backup FILE [--force]', load: async () => (await import('./backupCommand.js')).backupCommand },
+  conformance: { summary: 'check a decoder against protocol v1, rule by rule: conformance PORT [--seconds N]', load: async () => (await import('./conformanceCommand.js')).conformanceCommand },
   estate: { summary: 'estate board for many sites over MQTT: estate --config FILE', load: async () => (await import('./estateCommand.js')).estateCommand },
   restore: { summary: 'restore the database from a backup (service stopped): restore FILE', load: async () => (await import('./restoreCommand.js')).restoreCommand },
 };

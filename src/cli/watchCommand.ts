@@ -14,7 +14,7 @@ const MAX_INPUTS = 64;
  * `pairwatch watch PORT`: commissioning view for wiring a new loop. Shows, live, each input's band,
  * pulse period and jitter and the classifier's verdict with default settings (or --period).
  */
-const USAGE = `usage: pairwatch watch PORT [--baud 115200] [--period MS] [--inputs N] [--seconds N]
+const USAGE = `usage: pairwatch watch PORT [--baud 250000] [--period MS] [--inputs N] [--seconds N]
   For wiring a new loop: opens a decoder port directly (not while the service holds it) and shows each
   input's band, pulse period, jitter and the verdict, refreshed every second. Ctrl-C stops.
   PORT: /dev/ttyACM0, tcp://host:port or sim:FILE
@@ -25,7 +25,7 @@ export const watchCommand = defineCommand({ name: 'watch', usage: USAGE, run: as
     args: argv,
     allowPositionals: true,
     options: {
-      baud: { type: 'string', default: '115200' },
+      baud: { type: 'string', default: '250000' },
       period: { type: 'string' },
       seconds: { type: 'string' },
       inputs: { type: 'string' },

@@ -145,7 +145,7 @@ const decoderSchema = z.strictObject({
       const problem = decoderPortProblem(port);
       if (problem) ctx.addIssue({ code: 'custom', message: problem });
     }),
-  baud: wholeNumber(300, 4_000_000).default(115200),
+  baud: wholeNumber(300, 4_000_000).default(250000),
   inputs: wholeNumber(1, 64).optional(),
   /**
    * Host-clock silence after which the decoder (and its loops) count as offline. The protocol sends

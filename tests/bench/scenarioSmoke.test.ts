@@ -4,6 +4,7 @@ import { run as api } from '../../bench/api.bench.js';
 import type { BenchResult, BenchScenario } from '../../bench/benchTypes.js';
 import { BENCH_NAMES } from '../../bench/benchTypes.js';
 import { run as detection } from '../../bench/detection.bench.js';
+import { run as firmware } from '../../bench/firmware.bench.js';
 import { run as ingest } from '../../bench/ingest.bench.js';
 import { SCENARIOS } from '../../bench/scenarios.js';
 import { run as soak } from '../../bench/soak.bench.js';
@@ -22,6 +23,7 @@ const scenarios: Array<[string, BenchScenario]> = [
   ['api', api],
   ['soak', soak],
   ['estate', estate],
+  ['firmware', firmware],
 ];
 
 function expectWellFormed(result: BenchResult, name: string): void {
