@@ -1,3 +1,4 @@
+import type { Statement } from 'better-sqlite3';
 import type { Store } from './openStore.js';
 import { storageFailureOf, type StorageFailure } from './storageFailure.js';
 
@@ -125,16 +126,21 @@ export function createDurableWriter(options: DurableWriterOptions): DurableWrite
    * Batches of only high-rate droppable data are committed with NORMAL (no fsync of their own: a power
    * cut may lose the last of them, never corrupt the file), then FULL is put back for everyone else.
    */
+  let syncNormal: Statement | undefined;
+  let syncFull: Statement | undefined;
   const inTransaction = (droppableOnly: boolean, run: () => void): void => {
     if (!droppableOnly) {
       store.transaction(run);
       return;
     }
-    store.db.pragma('synchronous = NORMAL');
+    // Prepared once: db.pragma() prepares afresh on every call, twice per edge batch.
+    syncNormal ??= store.db.prepare('PRAGMA synchronous = NORMAL');
+    syncFull ??= store.db.prepare('PRAGMA synchronous = FULL');
+    syncNormal.run();
     try {
       store.transaction(run);
     } finally {
-      store.db.pragma('synchronous = FULL');
+      syncFull.run();
     }
   };
 
