@@ -5,12 +5,12 @@ import type { SqliteDatabase } from '../../src/store/openDatabase.js';
  * Records every statement the code runs on any better-sqlite3 connection in this process — its SQL
  * text, the method (run/get/all) and the bound values — including the BEGIN/COMMIT that
  * `db.transaction` issues and the statements behind `db.pragma`, because all of them go through
- * `Statement.prototype`. The ingest bench replays the recording on a twin database with each
+ * `Statement.prototype` (and `db.exec`, recorded too). The ingest bench replays the recording on a twin database with each
  * statement prepared once: "the same writes, with nothing around them", a ceiling for the store's share.
  */
 export interface SqlOp {
   sql: string;
-  method: 'run' | 'get' | 'all';
+  method: 'run' | 'get' | 'all' | 'exec';
   args: unknown[];
 }
 
@@ -29,10 +29,17 @@ export function recordSql(work: () => void): SqlOp[] {
       return original.apply(this, args);
     };
   }
+  const dbProto = Database.prototype as unknown as { exec: (this: Database.Database, sql: string) => unknown };
+  const originalExec = dbProto.exec;
+  dbProto.exec = function recordedExec(this: Database.Database, sql: string) {
+    ops.push({ sql, method: 'exec', args: [] });
+    return originalExec.call(this, sql);
+  };
   try {
     work();
   } finally {
     Object.assign(proto, originals);
+    dbProto.exec = originalExec;
   }
   return ops;
 }
@@ -41,10 +48,16 @@ export function recordSql(work: () => void): SqlOp[] {
 export function replaySql(db: SqliteDatabase, ops: readonly SqlOp[]): void {
   const prepared = new Map<string, Database.Statement>();
   for (const op of ops) {
-    let statement = prepared.get(op.sql);
+    if (op.method === 'exec') {
+      db.exec(op.sql);
+      continue;
+    }
+    // SQLite applies a PRAGMA while compiling it: one kept and run again would do nothing.
+    const isPragma = /^\s*PRAGMA\b/i.test(op.sql);
+    let statement = isPragma ? undefined : prepared.get(op.sql);
     if (statement === undefined) {
       statement = db.prepare(op.sql);
-      prepared.set(op.sql, statement);
+      if (!isPragma) prepared.set(op.sql, statement);
     }
     // db.pragma() reads even a pragma that returns nothing; a plain statement of it must be run().
     if (op.method === 'run' || !statement.reader) statement.run(...op.args);

@@ -1,4 +1,3 @@
-import type { Statement } from 'better-sqlite3';
 import type { Store } from './openStore.js';
 import { storageFailureOf, type StorageFailure } from './storageFailure.js';
 
@@ -126,21 +125,18 @@ export function createDurableWriter(options: DurableWriterOptions): DurableWrite
    * Batches of only high-rate droppable data are committed with NORMAL (no fsync of their own: a power
    * cut may lose the last of them, never corrupt the file), then FULL is put back for everyone else.
    */
-  let syncNormal: Statement | undefined;
-  let syncFull: Statement | undefined;
   const inTransaction = (droppableOnly: boolean, run: () => void): void => {
     if (!droppableOnly) {
       store.transaction(run);
       return;
     }
-    // Prepared once: db.pragma() prepares afresh on every call, twice per edge batch.
-    syncNormal ??= store.db.prepare('PRAGMA synchronous = NORMAL');
-    syncFull ??= store.db.prepare('PRAGMA synchronous = FULL');
-    syncNormal.run();
+    // exec, not a statement prepared once: SQLite applies PRAGMA synchronous while compiling it, so a
+    // kept statement would change nothing when run again. exec also skips db.pragma()'s result rows.
+    store.db.exec('PRAGMA synchronous = NORMAL');
     try {
       store.transaction(run);
     } finally {
-      syncFull.run();
+      store.db.exec('PRAGMA synchronous = FULL');
     }
   };
 
