@@ -78,7 +78,7 @@ export async function startMonitor(options: StartMonitorOptions) {
     return config.contacts.filter((c) => first.length === 0 || first.includes(c.id)).map((c) => mailbox(c));
   };
 
-  const store: Store = openStore({ path: dbPath });
+  const store: Store = openStore({ path: dbPath, cacheKib: config.storage.cache_kib });
   if (store.opened.backupFile) logger.info({ backup: store.opened.backupFile }, 'database backed up before migrating');
 
   // The core is created after the writer, which must report to it: bind late.
