@@ -366,6 +366,19 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     tick,
     minute,
     flushEdges,
+    /**
+     * The earliest host time at which a decoder that is still talking would count as silent (its last
+     * valid line plus its `silence`), or null when none can: the shell wakes the clock input then.
+     */
+    nextSilenceAtMs(): number | null {
+      let earliest: number | null = null;
+      for (const decoder of Object.values(site.decoders)) {
+        if (decoder.offline || decoder.lastValidAtMs === null) continue;
+        const at = decoder.lastValidAtMs + (index.silenceMs.get(decoder.id) ?? 0);
+        if (earliest === null || at < earliest) earliest = at;
+      }
+      return earliest;
+    },
     /** Changes whenever anything the read model shows may have changed. */
     version: () => version,
     /** Plain snapshots for the read model. */
