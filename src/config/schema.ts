@@ -233,9 +233,20 @@ const retentionSchema = z
   })
   .prefault({});
 
+/** SQLite's own default page cache (about 2 MB); better-sqlite3's build would otherwise use 16 MB. */
+export const DEFAULT_CACHE_KIB = 2048;
+
 const storageSchema = z.strictObject({
   path: z.string().min(1),
   retention: retentionSchema,
+  /** The database's page cache in KiB (PRAGMA cache_size = -N): memory held for speed, per connection. */
+  cache_kib: z
+    .number({ error: 'must be a whole number of KiB, e.g. 2048' })
+    .min(256, { error: 'must be at least 256 (KiB)' })
+    .max(1_048_576, { error: 'must be at most 1048576 (KiB, 1 GiB)' })
+    // A refinement rather than .int(): its message is ours whatever the config error formatter does.
+    .refine(Number.isInteger, { error: 'must be a whole number of KiB, e.g. 2048' })
+    .default(DEFAULT_CACHE_KIB),
 });
 
 const webSchema = z

@@ -100,6 +100,12 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   let edgeBuffer: EdgeRow[] = [];
   let edgeBufferSinceMs = 0;
   let pendingLastPulse = new Map<string, number>();
+  /**
+   * Bumped on every change a reader could see (loop figures, alarms, service, links, quality), so
+   * the web can keep a serialised body until the next bump. Reads are synchronous on this thread,
+   * so a read after any change always sees a new number.
+   */
+  let version = 0;
 
   // Every start records the loops as unknown: the classifier decides afresh within seconds.
   writer.commit('start', (s) => {
@@ -131,6 +137,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
       results.push(result);
       if (result.error) continue;
       book = result.book;
+      version += 1;
       effects.push(...result.effects);
     }
     return { effects, results };
@@ -164,6 +171,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     const changes: Array<{ loopId: string; from: LoopState; to: LoopState; atMs: number; decoderUs: number | null; reason: string }> = [];
     const alarmInputs: AlarmInput[] = [];
     const decoderWork: Array<(s: Store) => void> = [];
+    version += 1;
     for (const effect of effects) {
       switch (effect.kind) {
         case 'edge':
@@ -284,6 +292,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   function minute(now: number, bucketMs: number): void {
     const taken = takeSiteQuality(index, site);
     site = taken.state;
+    version += 1;
     const lastPulses = pendingLastPulse;
     pendingLastPulse = new Map();
     for (const { loopId, quality } of taken.qualities) {
@@ -331,6 +340,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   function linkStatus(decoderId: string, status: { state: DecoderLinkStatus['state']; reason?: string }, now: number): void {
     const previous = links.get(decoderId);
     links.set(decoderId, { state: status.state, reason: status.reason ?? null, sinceMs: now });
+    version += 1;
     if (status.state === 'connected' && previous?.state !== 'connected') {
       logger.info({ decoderId }, `decoder ${decoderId} port open`);
       writer.commit('session open', (s) => {
@@ -364,6 +374,21 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     tick,
     minute,
     flushEdges,
+    /**
+     * The earliest host time at which a decoder that is still talking would count as silent (its last
+     * valid line plus its `silence`), or null when none can: the shell wakes the clock input then.
+     */
+    nextSilenceAtMs(): number | null {
+      let earliest: number | null = null;
+      for (const decoder of Object.values(site.decoders)) {
+        if (decoder.offline || decoder.lastValidAtMs === null) continue;
+        const at = decoder.lastValidAtMs + (index.silenceMs.get(decoder.id) ?? 0);
+        if (earliest === null || at < earliest) earliest = at;
+      }
+      return earliest;
+    },
+    /** Changes whenever anything the read model shows may have changed. */
+    version: () => version,
     /** Plain snapshots for the read model. */
     loopLive: (loopId: string) => live.get(loopId) ?? null,
     linkOf: (decoderId: string) => links.get(decoderId) ?? null,

@@ -81,7 +81,7 @@ export async function startMonitor(options: StartMonitorOptions) {
     return config.contacts.filter((c) => first.length === 0 || first.includes(c.id)).map((c) => mailbox(c));
   };
 
-  const store: Store = openStore({ path: dbPath });
+  const store: Store = openStore({ path: dbPath, cacheKib: config.storage.cache_kib });
   if (store.opened.backupFile) logger.info({ backup: store.opened.backupFile }, 'database backed up before migrating');
 
   // The core is created after the writer, which must report to it: bind late.
@@ -264,8 +264,32 @@ export async function startMonitor(options: StartMonitorOptions) {
     const t = now();
     monitorCore.tick(t);
     if (writer.pending() > 0) writer.flush();
+    armSilence();
   }, FAST_TICK_MS);
   timers.push(fast);
+
+  // --- offline at the exact silence deadline (issue 14) -----------------------------------------
+  // The fast tick alone notices silence up to FAST_TICK_MS late. One timer sleeps until the earliest
+  // deadline; a line that arrived meanwhile only moved the deadline on, so the timer then re-arms.
+  // The fast tick arms it again once a decoder is back from offline. At most one wake-up per silence
+  // period. Unref'd: it never keeps a stopping process alive.
+  let silenceTimer: NodeJS.Timeout | null = null;
+  function armSilence(): void {
+    if (silenceTimer !== null || stopping) return;
+    const at = monitorCore.nextSilenceAtMs();
+    if (at === null) return;
+    silenceTimer = setTimeout(() => {
+      silenceTimer = null;
+      if (stopping) return;
+      const t = now();
+      const due = monitorCore.nextSilenceAtMs();
+      if (due !== null && t >= due) monitorCore.handle({ kind: 'clock' }, t);
+      armSilence();
+    }, Math.max(1, at - now()));
+    silenceTimer.unref();
+  }
+  armSilence();
+  // --- end of offline at the exact silence deadline ---------------------------------------------
 
   async function runNotifications(flushAll = false): Promise<void> {
     if (notifyBusy) return;

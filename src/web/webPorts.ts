@@ -128,6 +128,12 @@ export interface HealthView {
 
 export interface WebReadModel {
   siteName(): string;
+  /**
+   * A number that changes whenever anything `loops()` or `alarms('active')` returns may have
+   * changed. When given, the API serialises those bodies once per version; a read side that cannot
+   * tell leaves it out and every request builds its body afresh.
+   */
+  version?(): number;
   loops(): LoopView[];
   loop(id: string): LoopDetailView | null;
   alarms(status: 'active' | 'all'): AlarmView[];
