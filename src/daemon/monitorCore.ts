@@ -8,7 +8,7 @@ import { loopSettingsFromConfig } from '../classify/loopSettings.js';
 import type { SiteConfig } from '../config/schema.js';
 import type { Condition } from '../model/condition.js';
 import type { LoopState } from '../model/loopState.js';
-import { queueNotices } from '../notify/noticeQueue.js';
+import { queueNotices, type NotifyEffect } from '../notify/noticeQueue.js';
 import { sessionCounters } from '../protocol/decoderSession.js';
 import { alarmInputsFor, loopsById, raiseFor, type LoopsById } from '../site/alarmInputsFor.js';
 import { indexSite, initialSiteState, stepSite, takeSiteQuality, type SiteIndex } from '../site/siteStep.js';
@@ -16,6 +16,8 @@ import type { SiteEffect, SiteInput, SiteState } from '../site/siteTypes.js';
 import type { DurableWriter } from '../store/createDurableWriter.js';
 import type { EdgeRow } from '../store/edgeRepo.js';
 import type { Store } from '../store/openStore.js';
+import { recordRecipient } from '../store/recipientRepo.js';
+import type { DirectNotices } from './createDirectNotices.js';
 
 /**
  * The monitor's shell around the pure core: it feeds lines to the site step, maps effects to alarm
@@ -46,6 +48,8 @@ export interface MonitorCoreOptions {
   now: number;
   /** Told after every committed change, so the board can refresh. */
   onChange?: (what: 'loops' | 'alarms') => void;
+  /** Mails alarm notices from memory while storage fails (see createDirectNotices); without it they wait for the disk. */
+  directNotices?: Pick<DirectNotices, 'claim' | 'isClaimed' | 'noteAlarm'>;
 }
 
 const EDGE_BATCH_ROWS = 2000;
@@ -115,8 +119,40 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     for (const effect of effects) {
       if (effect.kind === 'alarm') s.alarms.upsert(effect.alarm);
       else if (effect.kind === 'audit') s.audit.insert(effect.entry);
-      else queueNotices(s.db, effect, now, config.mail.group_window);
+      else if (options.directNotices?.isClaimed(effect)) {
+        // Already mailed (or being mailed) from memory while the disk failed: record who was told, queue nothing.
+        for (const contactId of new Set(effect.contactIds)) recordRecipient(s.db, effect.alarmId, contactId, now);
+      } else queueNotices(s.db, effect, now, config.mail.group_window);
     }
+  }
+
+  /**
+   * Commits alarm work; while storage fails, its notices are handed to the direct mailer instead of
+   * waiting in the writer's memory queue with the rest (issue: no alarm mail on a full disk). Claimed
+   * before the commit when storage is known to fail, and after it when this very commit found out.
+   * "Storage failing" itself is left out: its own alert already goes straight to the transport.
+   */
+  function commitAlarmWork(label: string, effects: readonly AlarmEffect[], now: number, work: (s: Store) => void): void {
+    const direct = options.directNotices;
+    const claim = () => {
+      if (!direct) return;
+      for (const effect of effects) {
+        if (effect.kind === 'alarm') direct.noteAlarm(effect.alarm);
+        if (effect.kind !== 'notify') continue;
+        const alarm = alarmRecordFor(effects, effect);
+        if (alarm?.condition === 'storage-failing') continue;
+        direct.claim(effect, alarm, now);
+      }
+    };
+    if (writer.status().failing !== null) claim();
+    const outcome = writer.commit(label, work);
+    if (outcome === 'queued') claim();
+  }
+
+  function alarmRecordFor(effects: readonly AlarmEffect[], notice: NotifyEffect): AlarmRecord | null {
+    let found: AlarmRecord | null = null;
+    for (const effect of effects) if (effect.kind === 'alarm' && effect.alarm.id === notice.alarmId) found = effect.alarm;
+    return found ?? openAlarms(book).find((a) => a.id === notice.alarmId) ?? null;
   }
 
   /** Runs alarm inputs through the engine; returns the effects to commit (the book is updated at once). */
@@ -221,7 +257,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     const { effects: alarmEffects } = runAlarms(alarmInputs, now);
     // Edges first, so the raw evidence for a state change is stored with it.
     flushEdges();
-    writer.commit('state', (s) => {
+    commitAlarmWork('state', alarmEffects, now, (s) => {
       for (const change of changes) {
         s.stateChanges.insert({ loopId: change.loopId, from: change.from, to: change.to, decoderUs: change.decoderUs, at: change.atMs, reason: change.reason });
         s.loopStatus.setState(change.loopId, change.to, change.atMs);
@@ -238,7 +274,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   function alarmAction(input: AlarmInput, now: number): AlarmStepResult {
     const [result] = runAlarms([input], now).results;
     if (!result || result.error) return result ?? { book, effects: [] };
-    writer.commit(`alarm ${input.kind}`, (s) => {
+    commitAlarmWork(`alarm ${input.kind}`, result.effects, now, (s) => {
       if (input.kind === 'out-of-service' || input.kind === 'return-to-service') {
         s.loopStatus.setService(input.loopId, input.kind === 'return-to-service', input.note, input.actor, now);
       }
