@@ -11,7 +11,7 @@ import type { LoopState } from '../model/loopState.js';
 import { queueNotices, type NotifyEffect } from '../notify/noticeQueue.js';
 import { sessionCounters } from '../protocol/decoderSession.js';
 import { alarmInputsFor, loopsById, raiseFor, type LoopsById } from '../site/alarmInputsFor.js';
-import { indexSite, initialSiteState, stepSite, takeSiteQuality, type SiteIndex } from '../site/siteStep.js';
+import { DECODER_CLOCK_AHEAD_MS, indexSite, initialSiteState, stepSite, takeSiteQuality, type SiteIndex } from '../site/siteStep.js';
 import type { SiteEffect, SiteInput, SiteState } from '../site/siteTypes.js';
 import type { DurableWriter } from '../store/createDurableWriter.js';
 import type { EdgeRow } from '../store/edgeRepo.js';
@@ -66,7 +66,8 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   const loops: LoopsById = loopsById(config);
   const index: SiteIndex = indexSite({
     loops: config.loops.map((loop) => ({ id: loop.id, decoderId: loop.decoder, input: loop.input, settings: loopSettingsFromConfig(loop) })),
-    decoders: config.decoders.map((d) => ({ id: d.id, silenceMs: d.silence })),
+    decoders: config.decoders.map((d) => ({ id: d.id, silenceMs: d.silence, inputs: d.inputs ?? null })),
+    decoderClockAheadMs: DECODER_CLOCK_AHEAD_MS,
   });
   const alarmContext: AlarmContext = { policies: policiesFromConfig(config), maxShelveMs: config.web.max_shelve };
 
@@ -247,6 +248,14 @@ export function createMonitorCore(options: MonitorCoreOptions) {
           break;
         case 'decoder-online':
           logger.info({ decoderId: effect.decoderId }, `decoder ${effect.decoderId} is talking again`);
+          break;
+        case 'decoder-clock':
+          decoderFaultAt.set(effect.decoderId, now);
+          logger.warn({ decoderId: effect.decoderId, aheadMs: effect.aheadMs }, `decoder ${effect.decoderId} clock is ${effect.aheadMs} ms ahead of the host's: frame not applied, its loops start over`);
+          break;
+        case 'decoder-mass-trip':
+          decoderFaultAt.set(effect.decoderId, now);
+          logger.warn({ decoderId: effect.decoderId, loops: effect.loops }, `all ${effect.loops} loops of decoder ${effect.decoderId} tripped within a second: taken as the link, not ${effect.loops} trips; the loops start over`);
           break;
       }
       alarmInputs.push(...alarmInputsFor(loops, effect, intermittentLoops));
