@@ -17,7 +17,8 @@ import { createStallGuard } from '../ops/stallGuard.js';
 import { createDurableWriter } from '../store/createDurableWriter.js';
 import { openStore, type Store } from '../store/openStore.js';
 import { makePrivateDir } from '../store/privateFiles.js';
-import { enqueueOutbox } from '../store/outboxRepo.js';
+import { enqueueOutbox, recordMailAudit } from '../store/outboxRepo.js';
+import { insertPendingNotice } from '../store/pendingNoticeRepo.js';
 import { buildWebServer } from '../web/buildWebServer.js';
 import { webListenWarnings } from '../web/webListenWarnings.js';
 import { createLiveFeed } from './createLiveFeed.js';
@@ -26,10 +27,12 @@ import { createReadModel } from './createReadModel.js';
 import { createWebCommands } from './createWebCommands.js';
 import { gatherDailyReport } from './gatherDailyReport.js';
 import { composeStorageAlert } from './composeStorageAlert.js';
+import { createDirectNotices } from './createDirectNotices.js';
 import { createMonitorCore } from './monitorCore.js';
 import { alarmEventsOf } from '../mqtt/alarmEvents.js';
 import { enqueueAlarmEvents } from '../mqtt/mqttOutbox.js';
 import { startSitePublisher, type SitePublisher } from '../mqtt/sitePublisher.js';
+import { findUnsavedAlarms, reserveSpace, writeUnsavedAlarms } from './writeUnsavedAlarms.js';
 import { runMaintenance } from './runMaintenance.js';
 
 /**
@@ -66,6 +69,10 @@ export async function startMonitor(options: StartMonitorOptions) {
   makePrivateDir(dataDir);
 
   const ackSecret = loadOrCreateAckSecret(dataDir);
+  reserveSpace(dataDir);
+  for (const file of findUnsavedAlarms(dataDir)) {
+    logger.error({ file }, `a previous stop could not store everything (the disk was full): what was lost is listed in ${file}; delete the file once read`);
+  }
   const noticeSettings = noticeSettingsFromConfig(config, ackSecret);
   let transport: MailTransport;
   if (options.transport) transport = options.transport;
@@ -109,6 +116,14 @@ export async function startMonitor(options: StartMonitorOptions) {
       logger.error({ label, err: error }, `a write was refused by the database and dropped (${label})`);
     },
   });
+  // Alarm mail while the disk fails goes straight from memory (see createDirectNotices).
+  const directNotices = createDirectNotices({
+    settings: noticeSettings,
+    transport,
+    groupWindowMs: config.mail.group_window,
+    retryFirstMs: config.mail.retry_first,
+    retryMaxMs: config.mail.retry_max,
+  });
   const live = createLiveFeed();
   let onAlarmsChanged: () => void = () => undefined;
   let publisher: SitePublisher | null = null; // mqtt (issue 12)
@@ -118,6 +133,7 @@ export async function startMonitor(options: StartMonitorOptions) {
     writer,
     logger,
     now: startedAt,
+    directNotices,
     onChange: (what) => {
       live.publish({ type: what });
       if (what === 'alarms') onAlarmsChanged();
@@ -296,9 +312,18 @@ export async function startMonitor(options: StartMonitorOptions) {
     notifyBusy = true;
     try {
       if (writer.status().failing === null) {
+        if (directNotices.pending() > 0) {
+          // Storage writes again: notices the direct mailer could not get out yet join the outbox, due now.
+          const back = directNotices.handBack(now());
+          writer.commit('direct notices handed back', (s) => {
+            for (const notice of back) insertPendingNotice(s.db, notice);
+          });
+        }
         // On a stop, notices still inside their grouping window go out now rather than wait for a restart.
         flushDigests(store.db, now() + (flushAll ? config.mail.group_window : 0), noticeSettings);
         await worker.runOnce();
+      } else {
+        await mailDirectly(flushAll);
       }
     } catch (err) {
       logger.error({ err }, `notification round failed: ${(err as Error).message}`);
@@ -307,6 +332,16 @@ export async function startMonitor(options: StartMonitorOptions) {
     }
   }
   timers.push(setInterval(() => void runNotifications(), NOTIFY_TICK_MS));
+
+  /** While storage fails: alarm notices straight from memory; the audit of each send waits in the writer like any write. */
+  async function mailDirectly(flushAll: boolean): Promise<void> {
+    for (const sent of await directNotices.round(now(), flushAll)) {
+      logger.info({ alarmIds: sent.alarmIds, contactId: sent.contactId }, `mail sent directly while storage fails: ${sent.subject}`);
+      writer.commit('direct mail audit', (s) => {
+        recordMailAudit(s.db, { at: sent.at, action: 'mail-sent', alarmIds: sent.alarmIds, note: `${sent.subject} → ${sent.contactId} (sent directly while storage was failing)`.slice(0, 1000) });
+      });
+    }
+  }
 
   // Besides the once-a-second round, wake exactly when the earliest queued notice falls due, so an
   // alarm's mail is not held up to a second behind its grouping window.
@@ -408,6 +443,14 @@ export async function startMonitor(options: StartMonitorOptions) {
     await web.close().catch(() => undefined);
     await publisher?.stop(); // mqtt (issue 12)
     writer.flush();
+    if (writer.pending() > 0 || directNotices.pending() > 0) {
+      // The disk still refuses: say what is lost with this process, and keep the alarms somewhere that survives it.
+      const file = writeUnsavedAlarms([dataDir], { at: now(), queued: writer.queuedLabels(), alarms: monitorCore.openAlarms(), unmailed: directNotices.unsent() });
+      logger.error(
+        { queued: writer.queuedLabels(), unmailed: directNotices.unsent(), alarms: monitorCore.openAlarms().map((a) => ({ id: a.id, source: a.source, loopId: a.loopId, condition: a.condition, state: a.state, raisedAt: new Date(a.raisedAt).toISOString() })), file },
+        `stopping with ${writer.pending()} write(s) the disk never took and ${directNotices.pending()} notice(s) not mailed; ${file ? `open alarms saved to ${file}` : 'no folder would take the open alarms either: they are only in this log'}`,
+      );
+    }
     store.close();
     logger.info({ reason }, 'monitor stopped');
   }
