@@ -57,7 +57,7 @@ export async function run(opts: BenchOptions): Promise<BenchResult> {
   let feed: { stop(): void } | null = null;
   try {
     // Silence of an hour: the board keeps the states fed below for the whole run.
-    const config = benchSiteConfig({ loops: LOOPS, port: decoderPort.url, dbPath: folder.path('site.db'), silence: '1h' });
+    const config = benchSiteConfig({ loops: LOOPS, port: decoderPort.url, dbPath: folder.path('site.db'), silence: '10m' });
     const token = grantApiToken(config.storage.path, Date.now());
     monitor = await startMonitor({ config, configDir: folder.dir, logger: silentLogger(), announce: false });
     if (!monitor.address) throw new BenchError('PW_BENCH_NO_ADDRESS', 'the monitor did not report a web address');
@@ -167,7 +167,9 @@ interface Board {
  * made by feeding 4 s of decoder lines straight into the core, in time order.
  */
 function populateBoard(monitor: Monitor, frames: FrameMaker): Board {
-  const feed = (line: string) => monitor.core.line('main', line, Date.now());
+  // Host time runs with decoder time (ending now): the monitor refuses decoder time that runs ahead of the host clock.
+  const hostAtZeroUs = Date.now() - 4_300;
+  const feed = (line: string, atUs = 0) => monitor.core.line('main', line, hostAtZeroUs + atUs / 1000);
   type Item = { atUs: number; input: number; band: 'O' | 'N' | 'H' | null };
   const items: Item[] = [];
   for (let input = 1; input <= LOOPS; input++) {
@@ -184,10 +186,10 @@ function populateBoard(monitor: Monitor, frames: FrameMaker): Board {
   feed(frames.hello(LOOPS));
   feed(frames.tick(0, bands.join('')));
   for (const item of items) {
-    if (item.band === null) feed(frames.tick(item.atUs, bands.join('')));
+    if (item.band === null) feed(frames.tick(item.atUs, bands.join('')), item.atUs);
     else {
       bands[item.input - 1] = item.band;
-      feed(frames.edge(item.atUs, item.input, item.band));
+      feed(frames.edge(item.atUs, item.input, item.band), item.atUs);
     }
   }
   const states = new Set(monitor.core.openAlarms().map((a) => a.condition));

@@ -2,6 +2,7 @@ import { parseArgs } from 'node:util';
 import { createDecoderLink } from '../ingest/createDecoderLink.js';
 import { checkLine, formatVerdicts, initialConformance, judgeConformance, noteOverlong, type ConformanceState } from '../protocol/conformance.js';
 import type { CliCommand } from './cliTypes.js';
+import { defineCommand, UsageError } from './defineCommand.js';
 
 /** The firmware's speed (firmware/decoder/uart.h) and the config's default `baud`. */
 const DEFAULT_BAUD = 250000;
@@ -17,7 +18,7 @@ const USAGE = `usage: pairwatch conformance PORT [--seconds ${DEFAULT_SECONDS}] 
  * `pairwatch conformance PORT`: checks any decoder's stream against protocol v1, rule by rule
  * (src/protocol/conformance.ts), for people building their own decoder.
  */
-export const conformanceCommand: CliCommand = async (argv, io) => {
+export const conformanceCommand = defineCommand({ name: 'conformance', usage: USAGE, run: async (argv, io) => {
   const { values, positionals } = parseArgs({
     args: argv,
     allowPositionals: true,
@@ -32,10 +33,8 @@ export const conformanceCommand: CliCommand = async (argv, io) => {
     return 0;
   }
   const port = positionals[0];
-  if (!port || positionals.length > 1) {
-    io.stderr.write(USAGE);
-    return 2;
-  }
+  if (!port) throw new UsageError('a decoder PORT is needed');
+  if (positionals.length > 1) throw new UsageError(`unexpected argument "${positionals[1]}"`);
   const seconds = Number(values.seconds);
   const baud = Number(values.baud);
   if (!Number.isFinite(seconds) || seconds <= 0) return usageError(io, `--seconds: "${values.seconds}" is not a positive number`);
@@ -74,7 +73,7 @@ export const conformanceCommand: CliCommand = async (argv, io) => {
   const failures = verdicts.filter((v) => !v.pass).length;
   io.stdout.write(failures === 0 ? 'conforms to decoder protocol v1\n' : `${failures} rule(s) failed\n`);
   return failures === 0 ? 0 : 1;
-};
+} });
 
 function usageError(io: Parameters<CliCommand>[1], message: string): number {
   io.stderr.write(`pairwatch conformance: ${message}\n${USAGE}`);

@@ -4,7 +4,8 @@ import { createLogger } from '../daemon/createLogger.js';
 import type { EstateConfig } from '../estate/estateConfigSchema.js';
 import { loadEstateConfig } from '../estate/loadEstateConfig.js';
 import { startEstate } from '../estate/startEstate.js';
-import type { CliCommand, CliIo } from './cliTypes.js';
+import type { CliIo } from './cliTypes.js';
+import { defineCommand } from './defineCommand.js';
 
 export const ESTATE_USAGE = `usage: pairwatch estate --config FILE
 Runs the estate board: no decoders; it reads many sites' states and alarms from an MQTT 5 broker
@@ -28,7 +29,7 @@ export function loadEstateConfigForCli(file: string, io: CliIo): EstateConfig | 
 }
 
 /** `pairwatch estate --config FILE`: runs until SIGTERM or SIGINT. */
-export const estateCommand: CliCommand = async (argv, io) => {
+export const estateCommand = defineCommand({ name: 'estate', usage: ESTATE_USAGE, run: async (argv, io) => {
   const { values } = parseArgs({ args: argv, options: { config: { type: 'string', default: 'config/estate.yaml' }, help: { type: 'boolean', short: 'h', default: false } } });
   if (values.help) {
     io.stdout.write(ESTATE_USAGE);
@@ -54,4 +55,4 @@ export const estateCommand: CliCommand = async (argv, io) => {
     process.once('SIGTERM', onSignal);
     process.once('SIGINT', onSignal);
   });
-};
+} });

@@ -26,7 +26,7 @@ describe('cached API bodies follow every change in the monitor core', () => {
     const dbPath = join(tmp.dir, 'site.db');
     const config = parseConfig(`
 site: { name: "Cache Test Croft" }
-decoders: [{ id: main, port: "tcp://127.0.0.1:9", inputs: 3, silence: 1h }]
+decoders: [{ id: main, port: "tcp://127.0.0.1:9", inputs: 3, silence: 10m }]
 loops:
   - { id: byre, name: "Byre", decoder: main, input: 1 }
   - { id: dairy, name: "Dairy", decoder: main, input: 2 }
