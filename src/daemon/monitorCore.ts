@@ -48,6 +48,8 @@ export interface MonitorCoreOptions {
   now: number;
   /** Told after every committed change, so the board can refresh. */
   onChange?: (what: 'loops' | 'alarms') => void;
+  /** Runs inside the transaction that commits alarm effects (the MQTT event outbox rides along). */
+  onAlarmEffects?: (s: Store, effects: readonly AlarmEffect[], now: number) => void;
   /** Mails alarm notices from memory while storage fails (see createDirectNotices); without it they wait for the disk. */
   directNotices?: Pick<DirectNotices, 'claim' | 'isClaimed' | 'noteAlarm'>;
 }
@@ -103,6 +105,12 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   let edgeBuffer: EdgeRow[] = [];
   let edgeBufferSinceMs = 0;
   let pendingLastPulse = new Map<string, number>();
+  /**
+   * Bumped on every change a reader could see (loop figures, alarms, service, links, quality), so
+   * the web can keep a serialised body until the next bump. Reads are synchronous on this thread,
+   * so a read after any change always sees a new number.
+   */
+  let version = 0;
 
   // Every start records the loops as unknown: the classifier decides afresh within seconds.
   writer.commit('start', (s) => {
@@ -125,6 +133,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
         for (const contactId of new Set(effect.contactIds)) recordRecipient(s.db, effect.alarmId, contactId, now);
       } else queueNotices(s.db, effect, now, config.mail.group_window);
     }
+    if (effects.length > 0) options.onAlarmEffects?.(s, effects, now);
   }
 
   /**
@@ -165,6 +174,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
       results.push(result);
       if (result.error) continue;
       book = result.book;
+      version += 1;
       effects.push(...result.effects);
     }
     return { effects, results };
@@ -198,6 +208,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     const changes: Array<{ loopId: string; from: LoopState; to: LoopState; atMs: number; decoderUs: number | null; reason: string }> = [];
     const alarmInputs: AlarmInput[] = [];
     const decoderWork: Array<(s: Store) => void> = [];
+    version += 1;
     for (const effect of effects) {
       switch (effect.kind) {
         case 'edge':
@@ -279,11 +290,16 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     if (alarmEffects.length > 0) options.onChange?.('alarms');
   }
 
-  /** An operator's or the system's action on alarms; refused actions come back with their error. */
-  function alarmAction(input: AlarmInput, now: number): AlarmStepResult {
+  /**
+   * An operator's or the system's action on alarms; refused actions come back with their error.
+   * `alsoInTransaction` runs inside the same commit, only for an accepted action (an acknowledge link is
+   * spent this way, so a refused acknowledgement leaves it usable).
+   */
+  function alarmAction(input: AlarmInput, now: number, alsoInTransaction?: () => void): AlarmStepResult {
     const [result] = runAlarms([input], now).results;
     if (!result || result.error) return result ?? { book, effects: [] };
     commitAlarmWork(`alarm ${input.kind}`, result.effects, now, (s) => {
+      alsoInTransaction?.();
       if (input.kind === 'out-of-service' || input.kind === 'return-to-service') {
         s.loopStatus.setService(input.loopId, input.kind === 'return-to-service', input.note, input.actor, now);
       }
@@ -321,6 +337,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   function minute(now: number, bucketMs: number): void {
     const taken = takeSiteQuality(index, site);
     site = taken.state;
+    version += 1;
     const lastPulses = pendingLastPulse;
     pendingLastPulse = new Map();
     for (const { loopId, quality } of taken.qualities) {
@@ -368,6 +385,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   function linkStatus(decoderId: string, status: { state: DecoderLinkStatus['state']; reason?: string }, now: number): void {
     const previous = links.get(decoderId);
     links.set(decoderId, { state: status.state, reason: status.reason ?? null, sinceMs: now });
+    version += 1;
     if (status.state === 'connected' && previous?.state !== 'connected') {
       logger.info({ decoderId }, `decoder ${decoderId} port open`);
       writer.commit('session open', (s) => {
@@ -401,6 +419,21 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     tick,
     minute,
     flushEdges,
+    /**
+     * The earliest host time at which a decoder that is still talking would count as silent (its last
+     * valid line plus its `silence`), or null when none can: the shell wakes the clock input then.
+     */
+    nextSilenceAtMs(): number | null {
+      let earliest: number | null = null;
+      for (const decoder of Object.values(site.decoders)) {
+        if (decoder.offline || decoder.lastValidAtMs === null) continue;
+        const at = decoder.lastValidAtMs + (index.silenceMs.get(decoder.id) ?? 0);
+        if (earliest === null || at < earliest) earliest = at;
+      }
+      return earliest;
+    },
+    /** Changes whenever anything the read model shows may have changed. */
+    version: () => version,
     /** Plain snapshots for the read model. */
     loopLive: (loopId: string) => live.get(loopId) ?? null,
     linkOf: (decoderId: string) => links.get(decoderId) ?? null,

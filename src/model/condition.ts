@@ -15,6 +15,7 @@ export const CONDITIONS = [
   'decoder-fault',
   'mail-failing',
   'storage-failing',
+  'broker-unreachable',
 ] as const;
 export type Condition = (typeof CONDITIONS)[number];
 
@@ -28,6 +29,7 @@ export const CONDITION_PRIORITY = {
   'decoder-fault': 'trouble',
   'mail-failing': 'system',
   'storage-failing': 'system',
+  'broker-unreachable': 'system',
 } as const satisfies Record<Condition, Priority>;
 
 /** Sort key: alarms first, then trouble, then system. */
@@ -70,5 +72,9 @@ export const CONDITION_TEXT = {
   'storage-failing': {
     words: 'storage failing: the monitor cannot write its database',
     check: 'Check free disk space and the data folder permissions; run `pairwatch doctor`.',
+  },
+  'broker-unreachable': {
+    words: 'broker unreachable: the monitor cannot hand its states and alarm events to the MQTT broker',
+    check: 'Check the network to the broker and its address, user and password (mqtt: in the config); events wait in the outbox meanwhile.',
   },
 } as const satisfies Record<Condition, { words: string; check: string }>;

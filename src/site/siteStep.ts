@@ -195,6 +195,7 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
       let decoder = decoders[input.decoderId];
       if (!decoder) break;
       const stepped = stepDecoderSession(decoder.session, input.line);
+      // One private copy per line, updated in place below and handed back (as stepLoop does).
       decoder = { ...decoder, session: stepped.session };
       const frameUs = stepped.events.some((e) => 'decoderUs' in e) ? stepped.session.lastDecoderUs : null;
       if (frameUs !== null) {
@@ -221,13 +222,16 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
           effects.push({ kind: 'decoder', decoderId: decoder.id, event, atMs: nowMs });
           continue;
         }
-        decoder = { ...decoder, lastValidAtMs: nowMs };
-        if ('decoderUs' in event) decoder = { ...decoder, latestDecoderUs: event.decoderUs, latestHostMs: nowMs };
+        decoder.lastValidAtMs = nowMs;
+        if ('decoderUs' in event) {
+          decoder.latestDecoderUs = event.decoderUs;
+          decoder.latestHostMs = nowMs;
+        }
         const anchorUs = decoder.latestDecoderUs;
         const placeAt = (atUs: number | undefined) =>
           atUs === undefined || anchorUs === null ? nowMs : Math.round(nowMs - (anchorUs - atUs) / 1000);
         if (decoder.offline) {
-          decoder = { ...decoder, offline: false };
+          decoder.offline = false;
           effects.push({ kind: 'decoder-online', decoderId: decoder.id, atMs: nowMs });
           feedLoops(decoder.id, () => ({ kind: 'restart' }), () => nowMs);
         }

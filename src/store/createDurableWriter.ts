@@ -132,11 +132,13 @@ export function createDurableWriter(options: DurableWriterOptions): DurableWrite
       store.transaction(run);
       return;
     }
-    store.db.pragma('synchronous = NORMAL');
+    // exec, not a statement prepared once: SQLite applies PRAGMA synchronous while compiling it, so a
+    // kept statement would change nothing when run again. exec also skips db.pragma()'s result rows.
+    store.db.exec('PRAGMA synchronous = NORMAL');
     try {
       store.transaction(run);
     } finally {
-      store.db.pragma('synchronous = FULL');
+      store.db.exec('PRAGMA synchronous = FULL');
     }
   };
 

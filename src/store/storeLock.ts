@@ -1,4 +1,5 @@
-import { closeSync, mkdirSync, openSync, readFileSync, unlinkSync, writeSync } from 'node:fs';
+import { closeSync, openSync, readFileSync, unlinkSync, writeSync } from 'node:fs';
+import { makePrivateDir } from './privateFiles.js';
 import { dirname } from 'node:path';
 import { StoreError, describeError } from './storeError.js';
 
@@ -56,7 +57,7 @@ export function processStartTime(pid: number): string | null {
 export function acquireStoreLock(dbPath: string): StoreLock {
   const file = lockFileFor(dbPath);
   try {
-    mkdirSync(dirname(dbPath), { recursive: true });
+    makePrivateDir(dirname(dbPath));
   } catch (error) {
     throw new StoreError('PW_STORE_OPEN_FAILED', `cannot create the folder for ${dbPath}: ${describeError(error)}`, { cause: error });
   }
