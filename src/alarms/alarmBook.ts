@@ -57,6 +57,7 @@ export function nextWakeAt(book: AlarmBook): number | null {
   return earliest;
 }
 
+/** A condition with no loop (null) is never out of service: entries always name a loop. */
 export function isOutOfService(book: AlarmBook, loopId: string | null): boolean {
-  return loopId !== null && book.outOfService.some((entry) => entry.loopId === loopId);
+  return book.outOfService.some((entry) => entry.loopId === loopId);
 }

@@ -36,7 +36,8 @@ export interface ActionMeta {
   noticeNote: string | null;
 }
 
-export type Changed = Extract<LifecycleOutcome, { changed: true }>;
+/** A transition that changed the alarm; also what the engine builds itself for a new alarm or an escalation tick. */
+export type Changed = Pick<Extract<LifecycleOutcome, { changed: true }>, 'alarm' | 'escalation' | 'notice'>;
 
 export function resolvePolicy(ctx: AlarmContext, name: string | null): { policy: EscalationPolicy | null; note: string | null } {
   if (name === null) return { policy: null, note: 'no escalation policy: nobody is notified' };
@@ -76,7 +77,7 @@ export function commit(work: Work, before: AlarmRecord | null, outcome: Changed,
 
   work.effects.push({ kind: 'alarm', alarm });
   if (meta) audit(work, meta.actor, meta.action, alarm.id, alarm.loopId, meta.note);
-  const policySteps = alarm.policy === null ? 0 : (resolvePolicy(work.ctx, alarm.policy).policy?.steps.length ?? 0);
+  const policySteps = resolvePolicy(work.ctx, alarm.policy).policy?.steps.length ?? 0;
   for (const step of steps) {
     audit(work, SYSTEM_ACTOR, 'escalation-step', alarm.id, alarm.loopId, `step ${(step.stepIndex ?? 0) + 1} of ${policySteps}: ${step.contactIds.join(', ')}`);
   }

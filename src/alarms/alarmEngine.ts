@@ -122,7 +122,8 @@ function actOn(
 
 // ---- conditions coming and going ------------------------------------------------------------
 
-type RaiseInput = Extract<AlarmInput, { kind: 'raise' }>;
+/** What raising needs to know; `kind` is left out so conditions re-raised on return to service need not carry it. */
+type RaiseInput = Omit<Extract<AlarmInput, { kind: 'raise' }>, 'kind'>;
 
 function findOpen(work: Work, source: string, condition: Condition): AlarmRecord | undefined {
   let found: AlarmRecord | undefined;
@@ -147,7 +148,7 @@ function raise(work: Work, input: RaiseInput, why: string | null): AlarmError | 
     return undefined;
   }
 
-  if (input.loopId !== null && loopIsOut(work, input.loopId)) {
+  if (loopIsOut(work, input.loopId)) {
     const already = work.suppressed.some((s) => s.source === input.source && s.condition === input.condition);
     if (!already) {
       work.suppressed.push({ source: input.source, loopId: input.loopId, condition: input.condition, latched: input.latched, policy: input.policy, since: work.now });
@@ -179,7 +180,7 @@ function raise(work: Work, input: RaiseInput, why: string | null): AlarmError | 
   };
   work.nextId += 1;
   const note = [`${fresh.priority}: ${fresh.condition} on ${fresh.source}`, why, policyNote].filter(Boolean).join('; ');
-  commit(work, null, { ok: true, changed: true, alarm: fresh, escalation: 'resume', notice: null }, {
+  commit(work, null, { alarm: fresh, escalation: 'resume', notice: null }, {
     actor: SYSTEM_ACTOR, action: 'raise', note, noticeActor: null, noticeNote: null,
   });
   return undefined;
@@ -241,13 +242,13 @@ function returnToService(work: Work, loopId: string, actorText: string, noteText
     const outcome = applyAlarmEvent(alarm, { kind: 'return-to-service' }, work.now);
     if (!outcome.ok || !outcome.changed) continue;
     if (alarm.active) {
-      present.push({ kind: 'raise', source: alarm.source, loopId: alarm.loopId, condition: alarm.condition, latched: alarm.latched, policy: alarm.policy });
+      present.push({ source: alarm.source, loopId: alarm.loopId, condition: alarm.condition, latched: alarm.latched, policy: alarm.policy });
     }
     commit(work, alarm, outcome, { actor, action: 'return-to-service', note, noticeActor: actor, noticeNote: note });
   }
   const held = work.suppressed.filter((s) => s.loopId === loopId);
   work.suppressed = work.suppressed.filter((s) => s.loopId !== loopId);
-  for (const s of held) present.push({ kind: 'raise', source: s.source, loopId: s.loopId, condition: s.condition, latched: s.latched, policy: s.policy });
+  for (const s of held) present.push({ source: s.source, loopId: s.loopId, condition: s.condition, latched: s.latched, policy: s.policy });
 
   for (const condition of present) raise(work, condition, 'present when the loop returned to service');
   return undefined;
@@ -262,17 +263,19 @@ function loopAlarms(work: Work, loopId: string): AlarmRecord[] {
 function tick(work: Work): void {
   const now = work.now;
   for (const alarm of [...work.alarms.values()].sort((a, b) => a.id - b.id)) {
-    if (alarm.state === 'shelved' && alarm.shelvedUntil !== null && alarm.shelvedUntil <= now) {
+    if (alarm.state === 'shelved') {
+      // The lifecycle decides whether the shelf time is up (and leaves the alarm alone if not).
       const outcome = applyAlarmEvent(alarm, { kind: 'shelve-expiry' }, now);
       if (outcome.ok && outcome.changed) {
         commit(work, alarm, outcome, { actor: SYSTEM_ACTOR, action: 'shelve-expired', note: 'shelve time ended', noticeActor: null, noticeNote: null });
       }
     } else if (alarm.state === 'unacknowledged' && alarm.escalation.nextAt !== null && alarm.escalation.nextAt <= now) {
-      commit(work, alarm, { ok: true, changed: true, alarm, escalation: 'resume', notice: null }, null);
+      commit(work, alarm, { alarm, escalation: 'resume', notice: null }, null);
     }
   }
 }
 
-function loopIsOut(work: Work, loopId: string | null): boolean {
-  return loopId !== null && work.outOfService.some((entry) => entry.loopId === loopId);
+/** A condition with no loop (decoder or system trouble) never matches: loops out of service are named by id. */
+function loopIsOut(work: Work, loopId: string | null): loopId is string {
+  return work.outOfService.some((entry) => entry.loopId === loopId);
 }

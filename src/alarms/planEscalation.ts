@@ -58,7 +58,8 @@ export function planEscalation(alarm: AlarmRecord, policy: EscalationPolicy, now
 
   let repeatsDone = prior.repeatsDone;
   const every = policy.repeatEveryMs;
-  if (every !== null && every > 0 && now >= start) {
+  // Before the raise time (clock stepped back) the slot count is negative and nothing is due.
+  if (every !== null && every > 0) {
     const slotsPassed = Math.min(policy.maxRepeats, Math.floor((now - start) / every));
     if (slotsPassed > repeatsDone) {
       const recipients = notified.filter((contactId) => !toldNow.has(contactId));
