@@ -42,6 +42,21 @@ describe('policiesFromConfig', () => {
     parsed.escalation['default']!.repeat_every = 0;
     expect(policiesFromConfig(parsed)['default']?.repeatEveryMs).toBeNull();
   });
+
+  it('hands the planner its steps in time order even from a config object that skipped the ascending-steps check', () => {
+    // The planner walks steps in order and stops at the first one not yet due, so an unsorted list would delay the early ones.
+    const parsed = issueExampleConfig();
+    parsed.escalation['default']!.steps = [
+      { after: 40 * 60_000, notify: ['oncall'] },
+      { after: 0, notify: ['office'] },
+      { after: 20 * 60_000, notify: ['oncall', 'office'] },
+    ];
+    expect(policiesFromConfig(parsed)['default']?.steps).toEqual([
+      { afterMs: 0, contactIds: ['office'] },
+      { afterMs: 1_200_000, contactIds: ['oncall', 'office'] },
+      { afterMs: 2_400_000, contactIds: ['oncall'] },
+    ]);
+  });
 });
 
 describe('raiseSettingsFor', () => {
