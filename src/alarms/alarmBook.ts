@@ -52,6 +52,7 @@ export function nextWakeAt(book: AlarmBook): number | null {
   for (const alarm of book.alarms) {
     const due =
       alarm.state === 'unacknowledged' ? alarm.escalation.nextAt : alarm.state === 'shelved' ? alarm.shelvedUntil : null;
+    // Stryker disable next-line EqualityOperator: on a tie (due === earliest) either choice leaves the same time
     if (due !== null && (earliest === null || due < earliest)) earliest = due;
   }
   return earliest;

@@ -69,6 +69,7 @@ export function commit(work: Work, before: AlarmRecord | null, outcome: Changed,
     }
   }
 
+  // Stryker disable next-line ArrayDeclaration: only a new alarm has no `before`, and a new alarm's outcome carries no notice, so `told` is never read then
   const told = before?.escalation.notified ?? [];
   const steps = planned.filter((n) => n.notice !== 'repeat');
   const toldByStep = new Set(steps.flatMap((n) => n.contactIds));
@@ -82,13 +83,16 @@ export function commit(work: Work, before: AlarmRecord | null, outcome: Changed,
     audit(work, SYSTEM_ACTOR, 'escalation-step', alarm.id, alarm.loopId, `step ${(step.stepIndex ?? 0) + 1} of ${policySteps}: ${step.contactIds.join(', ')}`);
   }
   if (repeat) {
+    // Stryker disable next-line OptionalChaining: a repeat is only planned from a policy, so the policy is there whenever this runs
     const maxRepeats = resolvePolicy(work.ctx, alarm.policy).policy?.maxRepeats ?? 0;
     const covers = repeat.slotsCovered > 1 ? ` (one notice for ${repeat.slotsCovered} repeats that fell due while nothing ran)` : '';
     audit(work, SYSTEM_ACTOR, 'repeat', alarm.id, alarm.loopId, `repeat ${repeat.repeatSlot ?? 0} of ${maxRepeats}: ${repeat.contactIds.join(', ')}${covers}`);
   }
+  // Stryker disable next-line OptionalChaining: meta is null only for an escalation tick, which never closes an alarm
   if (alarm.closedAt !== null) audit(work, SYSTEM_ACTOR, 'close', alarm.id, alarm.loopId, closeNote(meta?.action));
 
   if (outcome.notice !== null) {
+    // Stryker disable next-line OptionalChaining: meta is null only for an escalation tick, whose outcome carries no notice
     notify(work, alarm.id, told.filter((c) => !toldByStep.has(c)), outcome.notice, meta?.noticeActor ?? null, meta?.noticeNote ?? null);
   }
   for (const step of steps) notify(work, alarm.id, step.contactIds, step.notice, null, null);
@@ -105,6 +109,7 @@ function closeNote(action: AuditAction | undefined): string {
     case 'return-to-service': return 'closed: loop returned to service (conditions still present are raised as new alarms)';
     case 'shelve-expired':
     case 'unshelve': return 'closed: acknowledged before shelving and cleared while shelved';
+    // Stryker disable next-line ConditionalExpression,StringLiteral: every action that can close an alarm has its own case above
     default: return 'closed';
   }
 }
