@@ -58,4 +58,23 @@ describe('site effects to alarm inputs', () => {
     ]);
     expect(alarmInputsFor(loops, change('well-pit', 'healthy', 'offline'), new Set())).toEqual([]);
   });
+
+  it('raises decoder trouble for a fault the decoder reports, a clock that runs ahead and a mass trip, and nothing for ordinary lines', () => {
+    const decoderFault = { kind: 'raise', source: 'main', loopId: null, condition: 'decoder-fault', latched: false, policy: 'default' };
+    const fault: SiteEffect = { kind: 'decoder', decoderId: 'main', atMs: 0, event: { kind: 'fault', code: 'SUPPLY', decoderUs: 5 } };
+    expect(alarmInputsFor(loops, fault, new Set())).toEqual([decoderFault]);
+    expect(alarmInputsFor(loops, { kind: 'decoder-clock', decoderId: 'main', atMs: 0, aheadMs: 5000 }, new Set())).toEqual([decoderFault]);
+    expect(alarmInputsFor(loops, { kind: 'decoder-mass-trip', decoderId: 'main', atMs: 0, loops: 2 }, new Set())).toEqual([decoderFault]);
+    const lost: SiteEffect = { kind: 'decoder', decoderId: 'main', atMs: 0, event: { kind: 'lost', count: 2, decoderUs: 5 } };
+    expect(alarmInputsFor(loops, lost, new Set())).toEqual([]);
+    const edge: SiteEffect = { kind: 'edge', decoderId: 'main', input: 1, band: 'N', decoderUs: 5, atMs: 0 };
+    expect(alarmInputsFor(loops, edge, new Set())).toEqual([]);
+  });
+
+  it('clears intermittent when the loop settles, and raises nothing for a plain heartbeat pulse', () => {
+    const off: SiteEffect = { kind: 'loop', loopId: 'well-pit', atMs: 0, effect: { kind: 'intermittent', on: false, atUs: 0, faultsInWindow: 0 } };
+    expect(alarmInputsFor(loops, off, new Set(['well-pit']))).toEqual([{ kind: 'clear', source: 'well-pit', condition: 'intermittent' }]);
+    const pulse: SiteEffect = { kind: 'loop', loopId: 'well-pit', atMs: 0, effect: { kind: 'pulse', atUs: 0, widthUs: 1000, intervalUs: 500_000 } };
+    expect(alarmInputsFor(loops, pulse, new Set())).toEqual([]);
+  });
 });
