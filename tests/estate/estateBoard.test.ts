@@ -104,22 +104,25 @@ describe('the estate board', () => {
     await whenEstate(e, () => site('farm-x').alarms.some((a) => a.condition === 'tripped'), 'farm-x alarm');
     expect(standingOf(site('farm-x'), Date.now(), e.view().staleAfterMs)).toBe('alarm');
     await whenEstate(e, () => Object.keys(site('farm-y').loops).length === 2, 'farm-y loops');
-    await waitFor(() => smtp.messages.some((m) => m.subject?.startsWith('Ash Farm: alarm')), 10_000, () => 'the estate mail about the alarm');
+    await waitFor(() => smtp.messages.some((m) => m.subject === '[ALARM] Hollow Lane estate: Ash Farm: North shed — tripped'), 10_000, () => 'the estate mail about the alarm');
   }, 30_000);
 
   it('kill -9 of a site reads "site not reporting" (its socket closes, so the broker sends the Last Will at once)', async () => {
     const e = estate!;
     const y = () => e.book().sites['farm-y']!;
+    // Order, not speed: online up to the kill, offline (by its Will) only after it.
+    expect(y().status?.online).toBe(true);
     children.get('farm-y')!.kill('SIGKILL');
     await whenEstate(e, () => !isReporting(y(), Date.now(), e.view().staleAfterMs), 'farm-y not reporting', 1.5 * KEEPALIVE_MS + 5000);
     expect(y().status).toMatchObject({ online: false, reason: 'connection lost' });
-    await waitFor(() => smtp.messages.some((m) => m.subject === 'Birch Yard: site not reporting'), 10_000, () => 'the "site not reporting" mail');
+    await waitFor(() => smtp.messages.some((m) => m.subject === '[TROUBLE] Hollow Lane estate: Birch Yard — site not reporting'), 10_000, () => 'the "site not reporting" mail');
   }, 20_000);
 
   it('a site frozen with its connection open (SIGSTOP: silent, no FIN) reads "site not reporting" by its Last Will, sent after 1.5 × keep-alive', async () => {
     const e = estate!;
     const z = () => e.book().sites['farm-z']!;
     const frozen = children.get('farm-z')!;
+    expect(z().status?.online).toBe(true);
     const stoppedAt = Date.now();
     frozen.kill('SIGSTOP');
     await whenEstate(e, () => !isReporting(z(), Date.now(), e.view().staleAfterMs), 'farm-z not reporting', 10_000);
@@ -130,8 +133,11 @@ describe('the estate board', () => {
     // does not time it against the clock beyond "before the silence rule could have fired".
     expect(z().status).toMatchObject({ online: false, reason: 'connection lost' });
     expect(took).toBeLessThan(STALE_AFTER_S * 1000);
+    // Not a socket close: the site's last packet was at most one keep-alive before the freeze, so the broker
+    // cannot time it out sooner than half a keep-alive after it (a lower bound, so a slow machine cannot fail it).
+    expect(took).toBeGreaterThanOrEqual(KEEPALIVE_MS / 2);
     frozen.kill('SIGKILL');
-    await waitFor(() => smtp.messages.some((m) => m.subject === 'Cedar Cottages: site not reporting'), 10_000, () => 'the "site not reporting" mail');
+    await waitFor(() => smtp.messages.some((m) => m.subject === '[TROUBLE] Hollow Lane estate: Cedar Cottages — site not reporting'), 10_000, () => 'the "site not reporting" mail');
   }, 20_000);
 
   it('renders at 390×844 in Chromium: worst first, counts, "site not reporting", and a site page linking to the site', async () => {
