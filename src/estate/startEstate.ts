@@ -13,6 +13,7 @@ import { openStore, type Store } from '../store/openStore.js';
 import { enqueueOutbox } from '../store/outboxRepo.js';
 import { initialEstateBook, isReporting, stepEstate, type EstateBook } from './estateBook.js';
 import type { EstateConfig } from './estateConfigSchema.js';
+import { createEstateCommander } from './estateCommands.js';
 import { dueEstateMail, initialEstateWatch, reconcileEstate, type EstateWatch, type EstateWatchContext, type SiteObservation } from './estateWatch.js';
 import type { EstateView } from './estatePages.js';
 import { buildEstateWebServer } from './estateWebServer.js';
@@ -147,7 +148,16 @@ export async function startEstate(options: StartEstateOptions) {
     client.subscribeAsync(filters, { qos: 1 }).catch((err: unknown) => logger.error({ err }, `estate: cannot subscribe: ${(err as Error).message}`));
   });
   client.on('error', (err) => logger.warn({ err }, `estate: broker: ${err.message}`));
-  client.on('message', (topic, payload) => {
+  const commander = createEstateCommander(client, config.mqtt.prefix, config.mqtt.client_id, config.mqtt.command_timeout);
+  /** Site id → the API token the estate acts with there, read once from the environment at start. */
+  const commandTokens = new Map<string, string>();
+  for (const s of config.sites) {
+    const token = s.command_token_env ? env[s.command_token_env] : undefined;
+    if (token) commandTokens.set(s.id, token);
+    else if (s.command_token_env) logger.warn({ siteId: s.id }, `estate: ${s.command_token_env} is not set; ${s.id} can only be acknowledged on its own pages`);
+  }
+  client.on('message', (topic, payload, packet) => {
+    if (commander.onMessage(topic, packet)) return;
     let body: unknown;
     try {
       body = JSON.parse(payload.toString());
@@ -177,9 +187,14 @@ export async function startEstate(options: StartEstateOptions) {
     timeZone: config.estate.timezone,
     now: now(),
     staleAfterMs: staleAfter,
-    sites: config.sites.map((s) => ({ seen: book.sites[s.id]!, name: s.name ?? s.id, url: s.url ?? null })),
+    sites: config.sites.map((s) => ({ seen: book.sites[s.id]!, name: s.name ?? s.id, url: s.url ?? null, canAct: commandTokens.has(s.id) })),
   });
-  const web = buildEstateWebServer({ config, db: store.db, view, recentEvents: () => recent, now, logger });
+  const acknowledge = (siteId: string, alarmId: number, note: string | null) => {
+    const token = commandTokens.get(siteId);
+    if (!token) return Promise.resolve({ ok: false as const, code: 'PW_ESTATE_NO_TOKEN', message: 'no command token for this site' });
+    return commander.acknowledge(siteId, alarmId, note, token);
+  };
+  const web = buildEstateWebServer({ config, db: store.db, view, recentEvents: () => recent, now, logger, acknowledge });
   let address: string | null = null;
   if (options.listen !== false) {
     const at = config.web.listen.lastIndexOf(':');
@@ -212,6 +227,7 @@ export async function startEstate(options: StartEstateOptions) {
     async stop(): Promise<void> {
       clearInterval(check);
       clearInterval(retry);
+      commander.close();
       await client.endAsync().catch(() => undefined);
       await web.close().catch(() => undefined);
       store.close();

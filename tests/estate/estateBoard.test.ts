@@ -161,6 +161,13 @@ describe('the estate board', () => {
       expect(await cards.nth(0).textContent()).toContain('1 alarm');
       expect(await page.evaluate(() => document.documentElement.scrollWidth > window.innerWidth)).toBe(false);
       await page.screenshot({ path: join(OUT, '01-estate-board.png'), fullPage: true });
+      // The board refreshes itself: blank the live part, and the script puts the fragment back (no reload).
+      await page.evaluate(() => {
+        (window as unknown as { notReloaded: boolean }).notReloaded = true;
+        document.getElementById('estate-live')!.innerHTML = '';
+      });
+      await page.waitForFunction(() => document.querySelectorAll('#estate-live li.card').length === 3, undefined, { timeout: 20_000 });
+      expect(await page.evaluate(() => (window as unknown as { notReloaded?: boolean }).notReloaded)).toBe(true);
       await Promise.all([page.waitForURL(`${base}/sites/farm-x`), cards.nth(0).locator('a').click()]);
       expect(await page.textContent('h1')).toBe('Ash Farm');
       expect(await page.getAttribute('a.button-main', 'href')).toBe('https://farm-x.example.org/');
