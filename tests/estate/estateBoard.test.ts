@@ -165,6 +165,7 @@ describe('the estate board', () => {
       await page.evaluate(() => {
         (window as unknown as { notReloaded: boolean }).notReloaded = true;
         document.getElementById('estate-live')!.innerHTML = '';
+        window.dispatchEvent(new Event('focus'));
       });
       await page.waitForFunction(() => document.querySelectorAll('#estate-live li.card').length === 3, undefined, { timeout: 20_000 });
       expect(await page.evaluate(() => (window as unknown as { notReloaded?: boolean }).notReloaded)).toBe(true);
