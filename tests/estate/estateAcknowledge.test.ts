@@ -1,5 +1,6 @@
 import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
+import mqtt from 'mqtt';
 import pino from 'pino';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { loadConfig } from '../../src/config/loadConfig.js';
@@ -9,10 +10,11 @@ import { renderEstateSiteDetail } from '../../src/estate/estatePages.js';
 import { startEstate, type Estate } from '../../src/estate/startEstate.js';
 import { insertApiToken } from '../../src/store/apiTokenRepo.js';
 import { newApiToken, sha256Hex } from '../../src/web/auth/secretToken.js';
-import { ESTATE_USER, startMosquitto, type MosquittoBroker } from '../helpers/mosquittoBroker.js';
+import { ESTATE_USER, sitePassword, startMosquitto, type MosquittoBroker } from '../helpers/mosquittoBroker.js';
 import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
 import { waitFor } from '../helpers/waitFor.js';
 import { siteEnv, writeSimSite } from '../mqtt/fixtures/simSite.js';
+import { recordTopics } from '../mqtt/fixtures/topicRecorder.js';
 
 /**
  * Acknowledging from the estate board: two real site monitors with `accept_commands: true` on a real
@@ -29,7 +31,7 @@ const estateViewer = newApiToken();
 
 beforeAll(async () => {
   tmp = makeTempDir('pw-estate-ack-');
-  broker = await startMosquitto(tmp.dir, ['farm-a', 'farm-b']);
+  broker = await startMosquitto(tmp.dir, ['farm-a', 'farm-b', 'farm-c']);
   const siteTokens: Record<string, string> = {};
   for (const [id, role] of [['farm-a', 'operator'], ['farm-b', 'viewer']] as const) {
     const { configFile, dir } = writeSimSite(tmp.dir, id, broker.url, { freezeAt: '1s', acceptCommands: true });
@@ -42,10 +44,11 @@ beforeAll(async () => {
   writeFileSync(
     file,
     `estate: { name: "Hollow Lane estate" }
-mqtt: { url: ${broker.url}, username: ${ESTATE_USER.name}, pass_env: PW_ESTATE_PASS, client_id: estate-ack, command_timeout: 5s }
+mqtt: { url: ${broker.url}, username: ${ESTATE_USER.name}, pass_env: PW_ESTATE_PASS, client_id: estate-ack, command_timeout: 2s }
 sites:
   - { id: farm-a, name: "Ash Farm", command_token_env: PW_TOKEN_FARM_A }
   - { id: farm-b, name: "Birch Yard", command_token_env: PW_TOKEN_FARM_B }
+  - { id: farm-c, name: "Cedar Cottages", command_token_env: PW_TOKEN_FARM_C }
 mail: { from: "estate <estate@example.org>", drop_folder: ${join(tmp.dir, 'estate-mail')} }
 storage: { path: ${join(tmp.dir, 'estate.db')} }
 web: { listen: "127.0.0.1:0" }
@@ -54,7 +57,7 @@ web: { listen: "127.0.0.1:0" }
   estate = await startEstate({
     config: loadEstateConfig(file),
     logger: pino({ level: 'silent' }),
-    env: { ...process.env, PW_ESTATE_PASS: ESTATE_USER.pass, PW_TOKEN_FARM_A: siteTokens['farm-a'], PW_TOKEN_FARM_B: siteTokens['farm-b'] },
+    env: { ...process.env, PW_ESTATE_PASS: ESTATE_USER.pass, PW_TOKEN_FARM_A: siteTokens['farm-a'], PW_TOKEN_FARM_B: siteTokens['farm-b'], PW_TOKEN_FARM_C: 'a-token-nobody-checks' },
     listen: false,
   });
   insertApiToken(estate.store.db, { name: 'olive', role: 'operator', tokenHash: sha256Hex(estateOperator), createdAt: Date.now() });
@@ -113,5 +116,23 @@ describe('acknowledging from the estate board over the command topic', () => {
     expect(res.body).toContain('Birch Yard did not acknowledge alarm');
     expect(res.body).toContain('PW_WEB_FORBIDDEN');
     expect(sites.get('farm-b')!.read.alarm(id)!.state).toBe('unacknowledged');
+  }, 20_000);
+
+  it('gives up after command_timeout when the site does not answer, and another site cannot answer for it', async () => {
+    // farm-c runs no monitor, so nothing takes its commands; farm-b (logged in as itself) forges the answer.
+    const tapped = await recordTopics(broker.url, 'pairwatch/farm-c/commands');
+    const forger = await mqtt.connectAsync(broker.url, { protocolVersion: 5, clientId: 'farm-b-forger', username: 'farm-b', password: sitePassword('farm-b') });
+    try {
+      const asked = ack('farm-c', 5, estateOperator);
+      await waitFor(() => tapped.messages.length === 1, 5000, () => 'the command to farm-c');
+      const correlationData = tapped.messages[0]!.packet.properties!.correlationData!;
+      await forger.publishAsync('pairwatch/farm-b/replies/estate-ack', JSON.stringify({ ok: true, at: new Date().toISOString(), action: 'acknowledge', alarmId: 5, code: null, message: null }), { qos: 1, properties: { correlationData } });
+      const res = await asked;
+      expect(res.statusCode).toBe(409);
+      expect(res.body).toContain('PW_ESTATE_NO_ANSWER');
+    } finally {
+      await forger.endAsync(true);
+      await tapped.close();
+    }
   }, 20_000);
 });
