@@ -64,7 +64,7 @@ export function initialEstateWatch(now: number): EstateWatch {
   return { book: initialAlarmBook([], 1, []), pending: [], nextNoticeId: 1, records: {}, recipients: {}, threads: {}, labels: {}, startedAt: now };
 }
 
-/** The engine's `source` for a site alarm, and for a site's own "not reporting" trouble. */
+/** The engine's `source` for a site alarm (a site's own "not reporting" trouble uses the bare site id). */
 export const siteAlarmSource = (siteId: string, siteAlarmId: number) => `${siteId}/${siteAlarmId}`;
 
 /** A policy named after the priority (`alarm`, `trouble`, `system`) if the estate has one, else `default`. */
@@ -98,9 +98,8 @@ function take(run: Run, effect: AlarmEffect): void {
   const recipients = { ...w.recipients };
   let nextNoticeId = w.nextNoticeId;
   for (const contactId of new Set(effect.contactIds)) {
-    // As on a site: a contact's window opens with its first waiting notice; later ones join it.
-    const open = pending.filter((n) => n.contactId === contactId).map((n) => n.dueAt);
-    const dueAt = open.length > 0 ? Math.min(...open) : run.now + Math.max(0, run.ctx.groupWindowMs);
+    // planDigests sends all of a contact's notices once the earliest is due, so later ones ride in the open window.
+    const dueAt = run.now + Math.max(0, run.ctx.groupWindowMs);
     pending.push({ id: nextNoticeId++, contactId, alarmId: effect.alarmId, kind: effect.notice, createdAt: run.now, dueAt, actor: effect.actor, note: effect.note });
     const told = recipients[effect.alarmId] ?? [];
     if (!told.includes(contactId)) recipients[effect.alarmId] = [...told, contactId];
