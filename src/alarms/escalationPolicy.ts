@@ -40,7 +40,7 @@ export function fallbackPolicy(contactIds: readonly string[]): EscalationPolicy 
 }
 
 /** Every policy the config names, plus the fallback under `default` when the site gives none. */
-export function policiesFromConfig(config: SiteConfig): Record<string, EscalationPolicy> {
+export function policiesFromConfig(config: Pick<SiteConfig, 'escalation' | 'contacts'>): Record<string, EscalationPolicy> {
   const policies: Record<string, EscalationPolicy> = {};
   for (const [name, policy] of Object.entries(config.escalation)) {
     policies[name] = {

@@ -15,6 +15,8 @@ export interface SiteSeen {
   loops: Record<string, LoopPayload>;
   decoders: Record<string, DecoderPayload>;
   alarms: AlarmPayload[];
+  /** The retained alarm list has arrived (until then `alarms` is empty for want of news, not for want of alarms). */
+  alarmListSeen: boolean;
   /** When the site last said something while online (its own `at`, epoch ms). */
   lastSpokeMs: number | null;
   heartbeatIntervalMs: number | null;
@@ -36,7 +38,7 @@ export function initialEstateBook(prefix: string, siteIds: readonly string[]): E
 }
 
 function emptySite(siteId: string): SiteSeen {
-  return { siteId, status: null, summary: null, loops: {}, decoders: {}, alarms: [], lastSpokeMs: null, heartbeatIntervalMs: null, lastEventNo: null };
+  return { siteId, status: null, summary: null, loops: {}, decoders: {}, alarms: [], alarmListSeen: false, lastSpokeMs: null, heartbeatIntervalMs: null, lastEventNo: null };
 }
 
 const timeOf = (at: unknown): number | null => (typeof at === 'string' && Number.isFinite(Date.parse(at)) ? Date.parse(at) : null);
@@ -78,6 +80,7 @@ export function stepEstate(book: EstateBook, topic: string, body: unknown): { bo
     case 'alarms': {
       const list = body as AlarmsPayload;
       site.alarms = list.alarms;
+      site.alarmListSeen = true;
       spoke(list.at);
       if (list.lastEventNo !== null && (site.lastEventNo === null || list.lastEventNo > site.lastEventNo)) site.lastEventNo = list.lastEventNo;
       break;

@@ -27,6 +27,8 @@ export const estateConfigSchema = z.strictObject({
     session_expiry: duration.default(3_600_000),
     /** A site silent this long reads "site not reporting" even if its last status said online. Default: 3 of its heartbeats. */
     stale_after: duration.refine((ms) => ms >= 1000, 'must be at least 1s').optional(),
+    /** How long an acknowledgement sent from the board waits for the site's answer. */
+    command_timeout: duration.refine((ms) => ms >= 1000 && ms <= 120_000, 'must be between 1s and 2m').default(10_000),
   }),
   sites: z
     .array(
@@ -35,6 +37,11 @@ export const estateConfigSchema = z.strictObject({
         name: z.string().min(1).max(80).optional(),
         /** The site's own pages, for acting on an alarm. */
         url: z.url('must be a full URL such as https://farm.example.org').optional(),
+        /**
+         * Environment variable holding an API token of an operator on that site. Set, and the site has
+         * mqtt.accept_commands on, estate operators acknowledge from the board over the command topic.
+         */
+        command_token_env: z.string().regex(/^[A-Z_][A-Z0-9_]*$/, 'must be an environment variable name').optional(),
       }),
     )
     .min(1, 'needs at least one site'),

@@ -1,7 +1,8 @@
 import { CONDITION_TEXT } from '../model/condition.js';
 import type { AlarmPayload, EventPayload } from '../mqtt/sitePayloads.js';
 import type { Principal } from '../web/auth/principal.js';
-import { html, type SafeHtml } from '../web/pages/html.js';
+import { roleAllows } from '../web/auth/roles.js';
+import { html, trustedHtml, type SafeHtml } from '../web/pages/html.js';
 import { renderPage } from '../web/pages/layout.js';
 import { sinceWords, siteTime } from '../web/pages/siteTime.js';
 import { stateShape } from '../web/pages/stateShape.js';
@@ -17,7 +18,8 @@ export interface EstateView {
   timeZone: string;
   now: number;
   staleAfterMs: number | undefined;
-  sites: Array<{ seen: SiteSeen; name: string; url: string | null }>;
+  /** `canAct`: the board holds a command token for the site, so operators may acknowledge from here. */
+  sites: Array<{ seen: SiteSeen; name: string; url: string | null; canAct: boolean }>;
 }
 
 export const STANDING_LABEL = {
@@ -53,23 +55,34 @@ function siteCard(site: EstateView['sites'][number], view: EstateView): SafeHtml
 </li>`;
 }
 
-export function renderEstateBoard(view: EstateView, principal: Principal): string {
+/** The board's changing part: the summary line and the cards, also served alone for the refresh script. */
+export function renderEstateBoardList(view: EstateView): string {
   const byId = new Map(view.sites.map((s) => [s.seen.siteId, s]));
   const ordered = orderSites(view.sites.map((s) => s.seen), view.now, view.staleAfterMs).map((seen) => byId.get(seen.siteId)!);
   const notReporting = ordered.filter((s) => !isReporting(s.seen, view.now, view.staleAfterMs)).length;
+  return String(html`<p class="summary"><span class="count">${view.sites.length} sites</span><span class="count">${notReporting} not reporting</span><span class="as-of"> · as of ${siteTime(view.now, view.timeZone, view.now)}</span></p>
+<ul class="cards">${ordered.map((s) => siteCard(s, view))}</ul>`);
+}
+
+/** Seconds between the script's refreshes (without JavaScript the page reloads itself every 30 s). */
+const REFRESH_SECONDS = 5;
+
+export function renderEstateBoard(view: EstateView, principal: Principal): string {
   return renderPage({
     title: 'Estate',
     siteName: view.estateName,
     principal,
     section: 'board',
     noScriptRefreshSeconds: 30,
+    scripts: ['/static/estate.js'],
     body: html`<h1 class="visually-hidden">Estate</h1>
-<p class="summary"><span class="count">${view.sites.length} sites</span><span class="count">${notReporting} not reporting</span><span class="as-of"> · as of ${siteTime(view.now, view.timeZone, view.now)}</span></p>
-<ul class="cards">${ordered.map((s) => siteCard(s, view))}</ul>`,
+<div id="estate-live" data-refresh="/fragments/board" data-refresh-seconds="${REFRESH_SECONDS}">${trustedHtml(renderEstateBoardList(view))}</div>`,
   });
 }
 
-function alarmItem(alarm: AlarmPayload, view: EstateView, loopName: (id: string) => string): SafeHtml {
+const ACKABLE = new Set(['unacknowledged', 'returned-unacknowledged']);
+
+function alarmItem(alarm: AlarmPayload, view: EstateView, loopName: (id: string) => string, ack: { siteId: string; siteName: string; csrf: string } | null): SafeHtml {
   const at = Date.parse(alarm.raisedAt);
   return html`<li class="card state-${alarm.priority === 'alarm' ? 'tripped' : 'offline'}"><div class="card-link">
     ${stateShape(alarm.priority === 'alarm' ? 'tripped' : 'unknown', 32)}
@@ -78,16 +91,23 @@ function alarmItem(alarm: AlarmPayload, view: EstateView, loopName: (id: string)
       <span class="card-state">${PRIORITY_LABEL[alarm.priority]}: ${CONDITION_TEXT[alarm.condition].words.split(':')[0]}</span>
       <span class="card-alarm">${ALARM_STATE_LABEL[alarm.state]}${alarm.ackedBy ? ` by ${alarm.ackedBy}` : ''}</span>
       <span class="card-meta">since ${siteTime(at, view.timeZone, view.now)} (${sinceWords(view.now - at)})</span>
-    </span></div></li>`;
+    </span></div>${ack && ACKABLE.has(alarm.state) ? html`<form method="post" action="/sites/${encodeURIComponent(ack.siteId)}/alarms/${alarm.id}/ack" class="panel form-ack">
+    <input type="hidden" name="csrf" value="${ack.csrf}">
+    <label for="ack-note-${alarm.id}">Note (optional)</label>
+    <input id="ack-note-${alarm.id}" name="note" type="text" maxlength="1000">
+    <button type="submit" class="button button-main">Acknowledge at ${ack.siteName}</button>
+  </form>` : ''}</li>`;
 }
 
-export function renderEstateSite(view: EstateView, siteId: string, principal: Principal): string | null {
+/** A site's changing part: its alarms (with acknowledge forms for operators where the board may act) and loops. */
+export function renderEstateSiteDetail(view: EstateView, siteId: string, principal: Principal): string | null {
   const site = view.sites.find((s) => s.seen.siteId === siteId);
   if (!site) return null;
   const { seen } = site;
   const standing = standingOf(seen, view.now, view.staleAfterMs);
   const loops = Object.values(seen.loops).sort((a, b) => a.name.localeCompare(b.name));
   const loopName = (id: string) => seen.loops[id]?.name ?? id;
+  const ack = site.canAct && roleAllows(principal.role, 'operator') && principal.csrfToken ? { siteId, siteName: site.name, csrf: principal.csrfToken } : null;
   const loopCard = (loop: (typeof loops)[number]) => {
     const state: BoardState = loop.inService ? loop.state : 'out-of-service';
     const since = Date.parse(loop.since);
@@ -97,19 +117,28 @@ export function renderEstateSite(view: EstateView, siteId: string, principal: Pr
       <span class="card-meta">since ${siteTime(since, view.timeZone, view.now)} (${sinceWords(view.now - since)})${loop.location ? ` · ${loop.location}` : ''}</span>
     </span></div></li>`;
   };
+  return String(html`<p class="summary">${STANDING_LABEL[standing]} · ${spokeWords(seen, view.now)}${seen.status && !seen.status.online && seen.status.reason ? ` (${seen.status.reason})` : ''}</p>
+<section aria-labelledby="h-alarms"><h2 id="h-alarms">Active alarms (${seen.alarms.length})</h2>
+${seen.alarms.length > 0 ? html`<ul class="cards">${seen.alarms.map((a) => alarmItem(a, view, loopName, ack))}</ul>` : html`<p>None.</p>`}</section>
+<section aria-labelledby="h-loops"><h2 id="h-loops">Loops (${loops.length})</h2>
+${loops.length > 0 ? html`<ul class="cards">${loops.map(loopCard)}</ul>` : html`<p>No loop states received yet.</p>`}</section>`);
+}
+
+export function renderEstateSite(view: EstateView, siteId: string, principal: Principal, ackedAlarmId: number | null = null): string | null {
+  const site = view.sites.find((s) => s.seen.siteId === siteId);
+  const detail = renderEstateSiteDetail(view, siteId, principal);
+  if (!site || detail === null) return null;
   return renderPage({
     title: site.name,
     siteName: view.estateName,
     principal,
     section: 'none',
     noScriptRefreshSeconds: 30,
+    scripts: ['/static/estate.js'],
     body: html`<h1>${site.name}</h1>
-<p class="summary">${STANDING_LABEL[standing]} · ${spokeWords(seen, view.now)}${seen.status && !seen.status.online && seen.status.reason ? ` (${seen.status.reason})` : ''}</p>
+${ackedAlarmId !== null ? html`<p class="flash" role="status">${site.name} acknowledged alarm ${ackedAlarmId}.</p>` : ''}
 ${site.url ? html`<p><a class="button button-main" href="${site.url}">Open ${site.name}'s own pages to act</a></p>` : ''}
-<section aria-labelledby="h-alarms"><h2 id="h-alarms">Active alarms (${seen.alarms.length})</h2>
-${seen.alarms.length > 0 ? html`<ul class="cards">${seen.alarms.map((a) => alarmItem(a, view, loopName))}</ul>` : html`<p>None.</p>`}</section>
-<section aria-labelledby="h-loops"><h2 id="h-loops">Loops (${loops.length})</h2>
-${loops.length > 0 ? html`<ul class="cards">${loops.map(loopCard)}</ul>` : html`<p>No loop states received yet.</p>`}</section>
+<div id="estate-live" data-refresh="/fragments/sites/${encodeURIComponent(siteId)}" data-refresh-seconds="${REFRESH_SECONDS}">${trustedHtml(detail)}</div>
 <p><a class="button" href="/">Back to the estate</a></p>`,
   });
 }

@@ -6,15 +6,18 @@ import type { Logger } from 'pino';
 import type { SiteConfig } from '../config/schema.js';
 import { registerAuthRoutes } from '../web/auth/authRoutes.js';
 import { DEFAULT_SCRYPT_COST } from '../web/auth/passwordHash.js';
-import { requireRole } from '../web/auth/requestAuth.js';
+import { requireCsrf, requireRole } from '../web/auth/requestAuth.js';
+import { formBody, formField } from '../web/http/formFields.js';
 import { resolvePrincipal, SESSION_COOKIE } from '../web/auth/resolvePrincipal.js';
 import { installErrorHandling } from '../web/http/errorHandling.js';
 import { securityHeaders } from '../web/http/securityHeaders.js';
 import { registerStaticRoutes } from '../web/static/staticRoutes.js';
-import { notFound } from '../web/webErrors.js';
+import { notFound, WebError } from '../web/webErrors.js';
 import type { WebContext } from '../web/webContext.js';
 import type { EstateConfig } from './estateConfigSchema.js';
-import { renderEstateBoard, renderEstateEvents, renderEstateSite, type EstateView } from './estatePages.js';
+import type { CommandOutcome } from './estateCommands.js';
+import { renderEstateBoard, renderEstateBoardList, renderEstateEvents, renderEstateSite, renderEstateSiteDetail, type EstateView } from './estatePages.js';
+import { ESTATE_SCRIPT } from './estateScript.js';
 import type { EventPayload } from '../mqtt/sitePayloads.js';
 
 export interface EstateWebOptions {
@@ -24,6 +27,8 @@ export interface EstateWebOptions {
   recentEvents: () => ReadonlyArray<{ siteId: string; event: EventPayload }>;
   now: () => number;
   logger?: Logger;
+  /** Sends an acknowledgement to a site over its command topic and waits for its answer. */
+  acknowledge?: (siteId: string, alarmId: number, note: string | null) => Promise<CommandOutcome>;
 }
 
 const SITE_ID = /^[a-z0-9][a-z0-9_-]{0,39}$/;
@@ -66,6 +71,7 @@ export function buildEstateWebServer(options: EstateWebOptions): FastifyInstance
       request.badCredentials = lookup.kind === 'bad-token';
     });
     registerStaticRoutes(scope);
+    scope.get('/static/estate.js', async (_request, reply) => reply.header('cache-control', 'no-cache').type('text/javascript; charset=utf-8').send(ESTATE_SCRIPT));
     registerAuthRoutes(scope, ctx);
     scope.get('/', async (request, reply) => {
       const principal = requireRole(request, 'viewer');
@@ -74,9 +80,40 @@ export function buildEstateWebServer(options: EstateWebOptions): FastifyInstance
     scope.get('/sites/:id', async (request, reply) => {
       const principal = requireRole(request, 'viewer');
       const id = String((request.params as { id?: unknown }).id ?? '');
-      const page = SITE_ID.test(id) ? renderEstateSite(options.view(), id, principal) : null;
+      const acked = Number((request.query as { acked?: unknown }).acked);
+      const page = SITE_ID.test(id) ? renderEstateSite(options.view(), id, principal, Number.isSafeInteger(acked) && acked > 0 ? acked : null) : null;
       if (!page) throw notFound('site', id);
       return reply.type('text/html; charset=utf-8').send(page);
+    });
+    // Fragments the board's script swaps in, so the pages stay current without a reload.
+    scope.get('/fragments/board', async (request, reply) => {
+      requireRole(request, 'viewer');
+      return reply.type('text/html; charset=utf-8').send(renderEstateBoardList(options.view()));
+    });
+    scope.get('/fragments/sites/:id', async (request, reply) => {
+      const principal = requireRole(request, 'viewer');
+      const id = String((request.params as { id?: unknown }).id ?? '');
+      const part = SITE_ID.test(id) ? renderEstateSiteDetail(options.view(), id, principal) : null;
+      if (!part) throw notFound('site', id);
+      return reply.type('text/html; charset=utf-8').send(part);
+    });
+    scope.post('/sites/:id/alarms/:alarmId/ack', async (request, reply) => {
+      const principal = requireRole(request, 'operator');
+      const body = formBody(request.body);
+      requireCsrf(request, ctx, principal, formField(body, 'csrf', 200));
+      const params = request.params as { id?: unknown; alarmId?: unknown };
+      const id = String(params.id ?? '');
+      const site = SITE_ID.test(id) ? options.view().sites.find((s) => s.seen.siteId === id) : undefined;
+      if (!site) throw notFound('site', id);
+      const alarmId = Number(params.alarmId);
+      if (!Number.isSafeInteger(alarmId) || alarmId < 1) throw new WebError('PW_WEB_BAD_INPUT', { field: 'alarmId', reason: 'must be a whole number of at least 1' });
+      if (!site.canAct || !options.acknowledge) throw new WebError('PW_WEB_BAD_ACTION', { reason: `this board holds no command token for ${site.name}; acknowledge on its own pages` });
+      const typed = formField(body, 'note', 1000)?.replace(/[\r\n\u2028\u2029]+/g, ' ').trim();
+      // The site audits the token's name; the note says which estate user asked.
+      const note = `${typed ? `${typed} ` : ''}(from the estate board, by ${principal.name})`;
+      const outcome = await options.acknowledge(id, alarmId, note);
+      if (!outcome.ok) throw new WebError('PW_WEB_BAD_ACTION', { reason: `${site.name} did not acknowledge alarm ${alarmId}: ${outcome.message} (${outcome.code})` });
+      return reply.redirect(`/sites/${encodeURIComponent(id)}?acked=${alarmId}`, 303);
     });
     scope.get('/history', async (request, reply) => {
       const principal = requireRole(request, 'viewer');

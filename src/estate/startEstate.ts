@@ -6,21 +6,24 @@ import { brokerOptions } from '../mqtt/brokerOptions.js';
 import type { EventPayload } from '../mqtt/sitePayloads.js';
 import { createDropFolderTransport, createSmtpTransport, type MailTransport } from '../notify/mailTransport.js';
 import { createMessageIdFactory, messageIdDomain } from '../notify/messageId.js';
-import { mailbox } from '../notify/noticeSettings.js';
+import { publicUrlFor } from '../notify/noticeSettings.js';
+import { policiesFromConfig } from '../alarms/escalationPolicy.js';
 import { createOutboxWorker } from '../notify/outboxWorker.js';
 import { openStore, type Store } from '../store/openStore.js';
 import { enqueueOutbox } from '../store/outboxRepo.js';
 import { initialEstateBook, isReporting, stepEstate, type EstateBook } from './estateBook.js';
 import type { EstateConfig } from './estateConfigSchema.js';
-import { composeAlarmDigestMail, composeReportingMail, composeSiteAlarmMail } from './estateMail.js';
+import { createEstateCommander } from './estateCommands.js';
+import { dueEstateMail, initialEstateWatch, reconcileEstate, type EstateWatch, type EstateWatchContext, type SiteObservation } from './estateWatch.js';
 import type { EstateView } from './estatePages.js';
 import { buildEstateWebServer } from './estateWebServer.js';
 
 /**
  * The estate board: subscribes to the sites' topics, keeps what arrives in memory (the broker's
- * retained messages rebuild it after a restart), serves the read-only pages, and mails its own
- * contacts through the same outbox, worker and transports as a site when a site stops reporting or
- * raises an alarm. Its database holds only its users, sessions, tokens and the mail outbox.
+ * retained messages rebuild it after a restart), serves the read-only pages, and runs the estate's
+ * own alarms (estateWatch.ts: the site's alarm engine, escalation planner and notice mail) over what
+ * it sees, mailing its contacts through the same outbox, worker and transports as a site. Its
+ * database holds only its users, sessions, tokens and the mail outbox.
  */
 export interface StartEstateOptions {
   config: EstateConfig;
@@ -33,6 +36,8 @@ export interface StartEstateOptions {
 
 const CHECK_MS = 250;
 const RECENT_EVENTS = 200;
+/** Without `stale_after`, a site never heard from is called not reporting this long after start-up. */
+const STARTUP_GRACE_MS = 90_000;
 
 export async function startEstate(options: StartEstateOptions) {
   const { config, logger } = options;
@@ -47,9 +52,6 @@ export async function startEstate(options: StartEstateOptions) {
   else if (config.mail.smtp) transport = createSmtpTransport(config.mail.smtp, env);
   else transport = createDropFolderTransport(resolve(config.mail.drop_folder ?? join(dirname(dbPath), 'estate-mail')));
   const newMessageId = createMessageIdFactory(messageIdDomain(config.mail.from));
-  // Who hears: the first step of the default policy, else every contact.
-  const firstStep = config.escalation.default?.steps[0]?.notify ?? [];
-  const to = config.contacts.filter((c) => firstStep.length === 0 || firstStep.includes(c.id)).map((c) => mailbox(c));
   const worker = createOutboxWorker({
     db: store.db,
     transport,
@@ -73,34 +75,68 @@ export async function startEstate(options: StartEstateOptions) {
       logger.error({ err }, `estate mail round failed: ${(err as Error).message}`);
     }
   };
-  const mail = (message: Parameters<typeof enqueueOutbox>[1]) => {
-    if (to.length === 0) return;
-    store.transaction(() => enqueueOutbox(store.db, message, now()));
-    void sendDue();
-  };
-
-  // Storm control, as on a site: alarms raised within mail.group_window go out as one mail.
-  let held: Array<{ siteId: string; event: EventPayload }> = [];
-  let heldTimer: NodeJS.Timeout | null = null;
-  const flushHeld = () => {
-    heldTimer = null;
-    const batch = held;
-    held = [];
-    if (batch.length === 0) return;
-    const envelope = { from: config.mail.from, to, messageId: newMessageId() };
-    mail(batch.length === 1 ? composeSiteAlarmMail(siteInfo.get(batch[0]!.siteId)!, batch[0]!.event, envelope) : composeAlarmDigestMail(batch.map((b) => ({ site: siteInfo.get(b.siteId)!, event: b.event })), envelope));
-  };
-  const holdForMail = (siteId: string, event: EventPayload) => {
-    held.push({ siteId, event });
-    heldTimer ??= setTimeout(flushHeld, config.mail.group_window);
-  };
 
   const siteInfo = new Map(config.sites.map((s) => [s.id, { name: s.name ?? s.id, url: s.url ?? null }]));
   let book: EstateBook = initialEstateBook(config.mqtt.prefix, config.sites.map((s) => s.id));
   const recent: Array<{ siteId: string; event: EventPayload }> = [];
-  /** Last reporting verdict per site; a change is mailed (the first verdict only when it is "not reporting"). */
-  const reporting = new Map<string, boolean>();
   const listeners = new Set<() => void>();
+  const staleAfter = config.mqtt.stale_after;
+
+  // The estate's own alarms: the site's alarm engine and notice mail, fed from the estate book.
+  const watchContext: EstateWatchContext = {
+    alarms: { policies: policiesFromConfig(config), maxShelveMs: Number.MAX_SAFE_INTEGER },
+    groupWindowMs: config.mail.group_window,
+    startupGraceMs: staleAfter ?? STARTUP_GRACE_MS,
+  };
+  const mailSettings = {
+    siteName: config.estate.name,
+    timeZone: config.estate.timezone,
+    from: config.mail.from,
+    publicUrl: publicUrlFor(config.web),
+    contacts: config.contacts,
+    newMessageId,
+  };
+  let watch: EstateWatch = initialEstateWatch(now());
+  const observe = (t: number): SiteObservation[] =>
+    config.sites.map((s) => {
+      const seen = book.sites[s.id]!;
+      return {
+        siteId: s.id,
+        name: siteInfo.get(s.id)!.name,
+        reporting: isReporting(seen, t, staleAfter),
+        alarms: seen.alarmListSeen ? seen.alarms : null,
+        loops: Object.values(seen.loops).map((l) => ({ id: l.id, name: l.name })),
+        heard: seen.status !== null,
+      };
+    });
+  /** One look at every site, then the mail that is due goes into the outbox (committed before any send). */
+  const reconcile = () => {
+    const t = now();
+    try {
+      watch = reconcileEstate(watch, observe(t), t, watchContext);
+      const due = dueEstateMail(watch, t, mailSettings);
+      if (due.messages.length > 0) {
+        store.transaction(() => {
+          for (const message of due.messages) enqueueOutbox(store.db, message, t);
+        });
+        watch = due.watch;
+        void sendDue();
+      } else watch = due.watch;
+    } catch (err) {
+      // The next beat tries again with the same picture; nothing is dropped from the watch.
+      logger.error({ err }, `estate: alarm round failed: ${(err as Error).message}`);
+    }
+    for (const listener of listeners) listener();
+  };
+  let reconcileQueued = false;
+  const reconcileSoon = () => {
+    if (reconcileQueued) return;
+    reconcileQueued = true;
+    setImmediate(() => {
+      reconcileQueued = false;
+      reconcile();
+    });
+  };
 
   const client: MqttClient = mqtt.connect(config.mqtt.url, brokerOptions(
     { url: config.mqtt.url, clientId: config.mqtt.client_id, username: config.mqtt.username, passEnv: config.mqtt.pass_env, ca: config.mqtt.ca, keepaliveMs: config.mqtt.keepalive, sessionExpiryMs: config.mqtt.session_expiry },
@@ -112,7 +148,16 @@ export async function startEstate(options: StartEstateOptions) {
     client.subscribeAsync(filters, { qos: 1 }).catch((err: unknown) => logger.error({ err }, `estate: cannot subscribe: ${(err as Error).message}`));
   });
   client.on('error', (err) => logger.warn({ err }, `estate: broker: ${err.message}`));
-  client.on('message', (topic, payload) => {
+  const commander = createEstateCommander(client, config.mqtt.prefix, config.mqtt.client_id, config.mqtt.command_timeout);
+  /** Site id → the API token the estate acts with there, read once from the environment at start. */
+  const commandTokens = new Map<string, string>();
+  for (const s of config.sites) {
+    const token = s.command_token_env ? env[s.command_token_env] : undefined;
+    if (token) commandTokens.set(s.id, token);
+    else if (s.command_token_env) logger.warn({ siteId: s.id }, `estate: ${s.command_token_env} is not set; ${s.id} can only be acknowledged on its own pages`);
+  }
+  client.on('message', (topic, payload, packet) => {
+    if (commander.onMessage(topic, packet)) return;
     let body: unknown;
     try {
       body = JSON.parse(payload.toString());
@@ -129,25 +174,12 @@ export async function startEstate(options: StartEstateOptions) {
       }
       recent.push({ siteId: effect.siteId, event: effect.event });
       if (recent.length > RECENT_EVENTS) recent.shift();
-      if (effect.event.kind === 'raised' && effect.event.alarm.priority !== 'system') holdForMail(effect.siteId, effect.event);
     }
+    if (topic.endsWith('/alarms') || topic.endsWith('/status')) reconcileSoon();
     for (const listener of listeners) listener();
   });
 
-  const staleAfter = config.mqtt.stale_after;
-  const check = setInterval(() => {
-    const t = now();
-    for (const site of Object.values(book.sites)) {
-      const verdict = isReporting(site, t, staleAfter);
-      const before = reporting.get(site.siteId);
-      if (before === verdict) continue;
-      reporting.set(site.siteId, verdict);
-      if (before === undefined && verdict) continue;
-      logger.info({ siteId: site.siteId, reporting: verdict }, `estate: ${site.siteId} ${verdict ? 'reporting again' : 'not reporting'}`);
-      mail(composeReportingMail(siteInfo.get(site.siteId)!, verdict, site.lastSpokeMs, site.status && !site.status.online ? site.status.reason : 'silent', { from: config.mail.from, to, messageId: newMessageId() }));
-    }
-    for (const listener of listeners) listener();
-  }, CHECK_MS);
+  const check = setInterval(reconcile, CHECK_MS);
   const retry = setInterval(() => void sendDue(), 5000);
 
   const view = (): EstateView => ({
@@ -155,9 +187,14 @@ export async function startEstate(options: StartEstateOptions) {
     timeZone: config.estate.timezone,
     now: now(),
     staleAfterMs: staleAfter,
-    sites: config.sites.map((s) => ({ seen: book.sites[s.id]!, name: s.name ?? s.id, url: s.url ?? null })),
+    sites: config.sites.map((s) => ({ seen: book.sites[s.id]!, name: s.name ?? s.id, url: s.url ?? null, canAct: commandTokens.has(s.id) })),
   });
-  const web = buildEstateWebServer({ config, db: store.db, view, recentEvents: () => recent, now, logger });
+  const acknowledge = (siteId: string, alarmId: number, note: string | null) => {
+    const token = commandTokens.get(siteId);
+    if (!token) return Promise.resolve({ ok: false as const, code: 'PW_ESTATE_NO_TOKEN', message: 'no command token for this site' });
+    return commander.acknowledge(siteId, alarmId, note, token);
+  };
+  const web = buildEstateWebServer({ config, db: store.db, view, recentEvents: () => recent, now, logger, acknowledge });
   let address: string | null = null;
   if (options.listen !== false) {
     const at = config.web.listen.lastIndexOf(':');
@@ -185,11 +222,12 @@ export async function startEstate(options: StartEstateOptions) {
       return () => listeners.delete(listener);
     },
     runMail: () => worker.runOnce(),
+    /** The estate's own alarms (site alarms it escalates, sites not reporting), for tests and the board. */
+    watch: () => watch,
     async stop(): Promise<void> {
-      if (heldTimer) clearTimeout(heldTimer);
-      flushHeld();
       clearInterval(check);
       clearInterval(retry);
+      commander.close();
       await client.endAsync().catch(() => undefined);
       await web.close().catch(() => undefined);
       store.close();

@@ -16,6 +16,7 @@ export const CONDITIONS = [
   'mail-failing',
   'storage-failing',
   'broker-unreachable',
+  'site-not-reporting',
 ] as const;
 export type Condition = (typeof CONDITIONS)[number];
 
@@ -30,6 +31,8 @@ export const CONDITION_PRIORITY = {
   'mail-failing': 'system',
   'storage-failing': 'system',
   'broker-unreachable': 'system',
+  /** Raised by the estate board only, about a site it watches. */
+  'site-not-reporting': 'trouble',
 } as const satisfies Record<Condition, Priority>;
 
 /** Sort key: alarms first, then trouble, then system. */
@@ -76,5 +79,9 @@ export const CONDITION_TEXT = {
   'broker-unreachable': {
     words: 'broker unreachable: the monitor cannot hand its states and alarm events to the MQTT broker',
     check: 'Check the network to the broker and its address, user and password (mqtt: in the config); events wait in the outbox meanwhile.',
+  },
+  'site-not-reporting': {
+    words: 'site not reporting: the site monitor has gone offline on the broker (its Last Will) or has been silent too long, so its alarms cannot be seen from the estate',
+    check: 'Check the site monitor, its power and its network link to the broker; its own pages still work on the site.',
   },
 } as const satisfies Record<Condition, { words: string; check: string }>;

@@ -28,6 +28,7 @@ export const CONDITION_SHORT = {
   'mail-failing': 'mail failing',
   'storage-failing': 'storage failing',
   'broker-unreachable': 'broker unreachable',
+  'site-not-reporting': 'site not reporting',
 } as const satisfies Record<Condition, string>;
 
 const SUBJECT_MAX = 160;

@@ -104,22 +104,25 @@ describe('the estate board', () => {
     await whenEstate(e, () => site('farm-x').alarms.some((a) => a.condition === 'tripped'), 'farm-x alarm');
     expect(standingOf(site('farm-x'), Date.now(), e.view().staleAfterMs)).toBe('alarm');
     await whenEstate(e, () => Object.keys(site('farm-y').loops).length === 2, 'farm-y loops');
-    await waitFor(() => smtp.messages.some((m) => m.subject?.startsWith('Ash Farm: alarm')), 10_000, () => 'the estate mail about the alarm');
+    await waitFor(() => smtp.messages.some((m) => m.subject === '[ALARM] Hollow Lane estate: Ash Farm: North shed — tripped'), 10_000, () => 'the estate mail about the alarm');
   }, 30_000);
 
   it('kill -9 of a site reads "site not reporting" (its socket closes, so the broker sends the Last Will at once)', async () => {
     const e = estate!;
     const y = () => e.book().sites['farm-y']!;
+    // Order, not speed: online up to the kill, offline (by its Will) only after it.
+    expect(y().status?.online).toBe(true);
     children.get('farm-y')!.kill('SIGKILL');
     await whenEstate(e, () => !isReporting(y(), Date.now(), e.view().staleAfterMs), 'farm-y not reporting', 1.5 * KEEPALIVE_MS + 5000);
     expect(y().status).toMatchObject({ online: false, reason: 'connection lost' });
-    await waitFor(() => smtp.messages.some((m) => m.subject === 'Birch Yard: site not reporting'), 10_000, () => 'the "site not reporting" mail');
+    await waitFor(() => smtp.messages.some((m) => m.subject === '[TROUBLE] Hollow Lane estate: Birch Yard — site not reporting'), 10_000, () => 'the "site not reporting" mail');
   }, 20_000);
 
   it('a site frozen with its connection open (SIGSTOP: silent, no FIN) reads "site not reporting" by its Last Will, sent after 1.5 × keep-alive', async () => {
     const e = estate!;
     const z = () => e.book().sites['farm-z']!;
     const frozen = children.get('farm-z')!;
+    expect(z().status?.online).toBe(true);
     const stoppedAt = Date.now();
     frozen.kill('SIGSTOP');
     await whenEstate(e, () => !isReporting(z(), Date.now(), e.view().staleAfterMs), 'farm-z not reporting', 10_000);
@@ -130,8 +133,11 @@ describe('the estate board', () => {
     // does not time it against the clock beyond "before the silence rule could have fired".
     expect(z().status).toMatchObject({ online: false, reason: 'connection lost' });
     expect(took).toBeLessThan(STALE_AFTER_S * 1000);
+    // Not a socket close: the site's last packet was at most one keep-alive before the freeze, so the broker
+    // cannot time it out sooner than half a keep-alive after it (a lower bound, so a slow machine cannot fail it).
+    expect(took).toBeGreaterThanOrEqual(KEEPALIVE_MS / 2);
     frozen.kill('SIGKILL');
-    await waitFor(() => smtp.messages.some((m) => m.subject === 'Cedar Cottages: site not reporting'), 10_000, () => 'the "site not reporting" mail');
+    await waitFor(() => smtp.messages.some((m) => m.subject === '[TROUBLE] Hollow Lane estate: Cedar Cottages — site not reporting'), 10_000, () => 'the "site not reporting" mail');
   }, 20_000);
 
   it('renders at 390×844 in Chromium: worst first, counts, "site not reporting", and a site page linking to the site', async () => {
@@ -155,6 +161,14 @@ describe('the estate board', () => {
       expect(await cards.nth(0).textContent()).toContain('1 alarm');
       expect(await page.evaluate(() => document.documentElement.scrollWidth > window.innerWidth)).toBe(false);
       await page.screenshot({ path: join(OUT, '01-estate-board.png'), fullPage: true });
+      // The board refreshes itself: blank the live part, and the script puts the fragment back (no reload).
+      await page.evaluate(() => {
+        (window as unknown as { notReloaded: boolean }).notReloaded = true;
+        document.getElementById('estate-live')!.innerHTML = '';
+        window.dispatchEvent(new Event('focus'));
+      });
+      await page.waitForFunction(() => document.querySelectorAll('#estate-live li.card').length === 3, undefined, { timeout: 20_000 });
+      expect(await page.evaluate(() => (window as unknown as { notReloaded?: boolean }).notReloaded)).toBe(true);
       await Promise.all([page.waitForURL(`${base}/sites/farm-x`), cards.nth(0).locator('a').click()]);
       expect(await page.textContent('h1')).toBe('Ash Farm');
       expect(await page.getAttribute('a.button-main', 'href')).toBe('https://farm-x.example.org/');
@@ -166,7 +180,10 @@ describe('the estate board', () => {
     }
   }, 40_000);
 
-  it('restarts from the retained messages alone', async () => {
+  it('restarts from the retained messages alone, and tells its contacts again about what is still unacknowledged', async () => {
+    // After a restart one mail may list several conditions (the silent sites are raised at once too).
+    const alarmMails = () => smtp.messages.filter((m) => m.subject?.startsWith('[ALARM] Hollow Lane estate: ') && m.subject.includes('Ash Farm: North shed')).length;
+    const before = alarmMails();
     await estate!.stop();
     estate = await startEstate({ config: loadEstateConfig(estateFile), logger: pino({ level: 'silent' }), env: estateEnv, listen: false });
     const e = estate;
@@ -174,5 +191,7 @@ describe('the estate board', () => {
     expect(e.book().sites['farm-z']!.status?.online).toBe(false);
     expect(e.book().sites['farm-y']!.status?.online).toBe(false);
     expect(standingOf(e.book().sites['farm-x']!, Date.now(), e.view().staleAfterMs)).toBe('alarm');
+    // Its escalation lived in memory: told twice rather than not at all.
+    await waitFor(() => alarmMails() === before + 1, 10_000, () => 'the alarm mailed again after the restart');
   }, 20_000);
 });
