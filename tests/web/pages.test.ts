@@ -50,7 +50,7 @@ describe('the board', () => {
 
   it('each state draws a different shape', async () => {
     const { stateShape } = await import('../../src/web/pages/stateShape.js');
-    const states = ['healthy', 'tripped', 'open', 'shorted', 'offline', 'unknown', 'out-of-service'] as const;
+    const states = ['healthy', 'tripped', 'open', 'shorted', 'offline', 'unknown', 'out-of-service', 'back-to-normal'] as const;
     const drawings = states.map((s) => stateShape(s).value.replace(/class="[^"]*"/, ''));
     expect(new Set(drawings).size).toBe(states.length);
   });
