@@ -12,7 +12,7 @@ export const DEMO_USER = 'demo';
 
 /**
  * `pairwatch demo`: the invented site in config/demo.yaml with a simulated decoder. Within two
- * minutes one loop trips and one cable is cut and repaired. Prints where to look and how to log in.
+ * minutes one loop trips and one cable is cut and repaired. Prints where to look and how to sign in.
  */
 const USAGE = `usage: pairwatch demo [--listen HOST:PORT] [--config FILE] [--estate]
   The invented site in config/demo.yaml with a simulated decoder. Prints the address and a fresh

@@ -114,9 +114,9 @@ web: { listen: "${listen ?? '127.0.0.1:8090'}" }
     insertUser(estate.store.db, { name: 'demo', role: 'viewer', passwordHash: hashed.hash, passwordSalt: hashed.salt, createdAt: Date.now() });
     io.stdout.write(
       `\n  pairwatch demo --estate — three invented sites on a local Mosquitto (${url})\n` +
-        `  Estate board: http://${estateConfig.web.listen}/   log in as:  demo   password:  ${password}\n` +
+        `  Estate board: http://${estateConfig.web.listen}/   sign in as:  demo   password:  ${password}\n` +
         `  Watch: Ash Farm's grain store freezes at 0:20; Birch Yard's boiler-house cable is cut at 0:35 and repaired at 1:20.\n` +
-        `  The sites' own pages (same login, as operator): ${[...siteUrls.values()].join('  ')}\n  Stop with Ctrl-C.\n\n`,
+        `  The sites' own pages (same name and password, as operator): ${[...siteUrls.values()].join('  ')}\n  Stop with Ctrl-C.\n\n`,
     );
   } catch (err) {
     io.stderr.write(`pairwatch demo --estate: cannot start: ${(err as Error).message}\n`);

@@ -1,3 +1,4 @@
+import { countOf } from '../model/plural.js';
 /** One problem found in a config file: where (a path such as `loops[2].input`) and a plain reason. */
 export interface ConfigProblem {
   path: string;
@@ -11,7 +12,7 @@ export class ConfigError extends Error {
     readonly file: string,
     readonly problems: readonly ConfigProblem[],
   ) {
-    super(`${file}: ${problems.length} problem(s) in the configuration`);
+    super(`${file}: ${countOf(problems.length, 'problem')} in the configuration`);
     this.name = 'ConfigError';
   }
 

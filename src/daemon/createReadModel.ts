@@ -103,7 +103,7 @@ export function createReadModel(options: ReadModelOptions): WebReadModel {
       const cmp = showsBefore(own, decoder);
       top = cmp < 0 || (cmp === 0 && tops.order.get(own)! < tops.order.get(decoder)!) ? own : decoder;
     }
-    return top ? { id: top.id, condition: top.condition, priority: top.priority, state: top.state } : null;
+    return top ? { id: top.id, condition: top.condition, priority: top.priority, state: top.state, active: top.active } : null;
   }
 
   function loopView(loopId: string, tops: ReturnType<typeof topAlarms> = topAlarms()): LoopView | null {
@@ -195,6 +195,9 @@ export function createReadModel(options: ReadModelOptions): WebReadModel {
           actor: item.actor,
           fromState: item.fromState,
           toState: item.toState,
+          action: item.action,
+          note: item.note,
+          condition: item.condition,
         })),
         nextCursor: page.nextCursor,
       };

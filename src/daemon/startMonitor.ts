@@ -34,6 +34,7 @@ import { enqueueAlarmEvents } from '../mqtt/mqttOutbox.js';
 import { startSitePublisher, type SitePublisher } from '../mqtt/sitePublisher.js';
 import { findUnsavedAlarms, reserveSpace, writeUnsavedAlarms } from './writeUnsavedAlarms.js';
 import { runMaintenance } from './runMaintenance.js';
+import { countOf } from '../model/plural.js';
 
 /**
  * Wires the monitor together — the one place where the pure core meets serial ports, SQLite, mail
@@ -448,7 +449,7 @@ export async function startMonitor(options: StartMonitorOptions) {
       const file = writeUnsavedAlarms([dataDir], { at: now(), queued: writer.queuedLabels(), alarms: monitorCore.openAlarms(), unmailed: directNotices.unsent() });
       logger.error(
         { queued: writer.queuedLabels(), unmailed: directNotices.unsent(), alarms: monitorCore.openAlarms().map((a) => ({ id: a.id, source: a.source, loopId: a.loopId, condition: a.condition, state: a.state, raisedAt: new Date(a.raisedAt).toISOString() })), file },
-        `stopping with ${writer.pending()} write(s) the disk never took and ${directNotices.pending()} notice(s) not mailed; ${file ? `open alarms saved to ${file}` : 'no folder would take the open alarms either: they are only in this log'}`,
+        `stopping with ${countOf(writer.pending(), 'write')} the disk never took and ${countOf(directNotices.pending(), 'notice')} not mailed; ${file ? `open alarms saved to ${file}` : 'no folder would take the open alarms either: they are only in this log'}`,
       );
     }
     store.close();

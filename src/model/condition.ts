@@ -38,6 +38,24 @@ export const CONDITION_PRIORITY = {
 /** Sort key: alarms first, then trouble, then system. */
 export const PRIORITY_RANK = { alarm: 0, trouble: 1, system: 2 } as const satisfies Record<Priority, number>;
 
+/**
+ * The short name of each condition, the one word (or two) pages, mail subjects and reports use for it;
+ * a loop state that is also a condition reads the same (tripped, open circuit, short circuit).
+ */
+export const CONDITION_NAME = {
+  tripped: 'tripped',
+  open: 'open circuit',
+  shorted: 'short circuit',
+  offline: 'decoder offline',
+  intermittent: 'intermittent',
+  'link-noisy': 'noisy decoder link',
+  'decoder-fault': 'decoder fault',
+  'mail-failing': 'mail failing',
+  'storage-failing': 'storage failing',
+  'broker-unreachable': 'broker unreachable',
+  'site-not-reporting': 'site not reporting',
+} as const satisfies Record<Condition, string>;
+
 /** Plain words for each condition, and what to check on site. Used by mail, pages and the daily report. */
 export const CONDITION_TEXT = {
   tripped: {
@@ -54,7 +72,8 @@ export const CONDITION_TEXT = {
   },
   offline: {
     words: 'decoder offline: the line decoder has stopped talking to the monitor',
-    check: 'Check the decoder USB cable and power at the main building; every loop on it is blind meanwhile.',
+    // Without knowing the decoder's link (see decoderLink.ts for the per-link advice), name both kinds.
+    check: "Check the decoder's link to the monitor (its USB cable, or the network for a tcp:// decoder) and its power; every loop on it is blind meanwhile.",
   },
   intermittent: {
     words: 'intermittent: the loop keeps dropping into fault and recovering',
@@ -62,7 +81,7 @@ export const CONDITION_TEXT = {
   },
   'link-noisy': {
     words: 'noisy decoder link: many garbled or lost frames between decoder and monitor',
-    check: 'Check the USB cable and its routing away from mains and motor cables; try another port.',
+    check: "Check the decoder's link to the monitor: a USB cable's routing away from mains and motor cables, or the network to a tcp:// decoder.",
   },
   'decoder-fault': {
     words: 'decoder fault: the decoder reported a problem of its own (supply, overrun or watchdog restart)',

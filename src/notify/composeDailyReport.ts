@@ -2,6 +2,7 @@ import { countOf } from '../model/plural.js';
 import type { AlarmState } from '../model/alarmState.js';
 import { PRIORITIES, type Condition, type Priority } from '../model/condition.js';
 import type { LoopState } from '../model/loopState.js';
+import { alarmStanding, STANDING_WORDS } from '../model/alarmStanding.js';
 import { CONDITION_SHORT } from './composeNoticeMail.js';
 import { escapeHtml } from './escapeHtml.js';
 import { formatElapsed, formatSiteAndUtc, formatSiteTime } from './formatSiteTime.js';
@@ -77,14 +78,11 @@ const LOOP_STATE_WORDS = {
   offline: 'OFFLINE (decoder silent)',
 } as const satisfies Record<LoopState, string>;
 
-const ALARM_STATE_WORDS = {
-  unacknowledged: 'active, not acknowledged',
-  acknowledged: 'active, acknowledged',
-  'returned-unacknowledged': 'back to normal, not yet acknowledged',
-  shelved: 'shelved',
-  'out-of-service': 'loop out of service',
-  normal: 'closed',
-} as const satisfies Record<AlarmState, string>;
+/** The report knows no `active` flag: an alarm is present while it has no clearedAt (reset when it returns). */
+function reportStatusWords(alarm: ReportAlarm): string {
+  const standing = alarmStanding(alarm.state, alarm.clearedAt === null);
+  return standing === 'out-of-service' ? `loop ${STANDING_WORDS[standing]}` : STANDING_WORDS[standing];
+}
 
 /** `24 h` for whole hours, else the usual elapsed form. */
 function formatPeriod(ms: number): string {
@@ -106,11 +104,11 @@ function alarmLabel(alarm: ReportAlarm, data: DailyReportData): string {
 function alarmLine(alarm: ReportAlarm, data: DailyReportData): string {
   const tz = data.timeZone;
   const parts = [`${alarmLabel(alarm, data)} — ${CONDITION_SHORT[alarm.condition]}: raised ${formatSiteTime(alarm.raisedAt, tz)}`];
-  parts.push(alarm.clearedAt !== null ? `normal again ${formatSiteTime(alarm.clearedAt, tz)}` : 'still present');
+  parts.push(alarm.clearedAt !== null ? `back to normal ${formatSiteTime(alarm.clearedAt, tz)}` : 'still present');
   if (alarm.ackedAt !== null) {
     parts.push(`acknowledged by ${alarm.ackedBy ?? 'someone'} ${formatSiteTime(alarm.ackedAt, tz)}${alarm.note ? ` ("${alarm.note}")` : ''}`);
   }
-  parts.push(`now ${ALARM_STATE_WORDS[alarm.state]}`);
+  parts.push(`now ${reportStatusWords(alarm)}`);
   return parts.join('; ');
 }
 

@@ -1,5 +1,7 @@
 import type { NoticeKind } from '../alarms/alarmTypes.js';
-import { CONDITION_TEXT, PRIORITY_RANK, type Condition, type Priority } from '../model/condition.js';
+import { CONDITION_NAME, CONDITION_TEXT, PRIORITY_RANK, type Priority } from '../model/condition.js';
+import { alarmStanding, BACK_TO_NORMAL_NEEDS_ACK, STANDING_WORDS } from '../model/alarmStanding.js';
+import { checkAdvice, decoderLinkOf, type DecoderLink } from '../model/decoderLink.js';
 import { signAckToken } from './ackToken.js';
 import { escapeHtml } from './escapeHtml.js';
 import { formatElapsed, formatSiteAndUtc } from './formatSiteTime.js';
@@ -16,20 +18,8 @@ export interface NoticeComposeContext extends NoticeSettings {
   recipients: ReadonlyMap<number, readonly string[]>;
 }
 
-/** Short names for subjects; CONDITION_TEXT has the full plain words for the body. */
-export const CONDITION_SHORT = {
-  tripped: 'tripped',
-  open: 'open circuit',
-  shorted: 'short circuit',
-  offline: 'decoder offline',
-  intermittent: 'intermittent',
-  'link-noisy': 'noisy decoder link',
-  'decoder-fault': 'decoder fault',
-  'mail-failing': 'mail failing',
-  'storage-failing': 'storage failing',
-  'broker-unreachable': 'broker unreachable',
-  'site-not-reporting': 'site not reporting',
-} as const satisfies Record<Condition, string>;
+/** Short names for subjects (the model's one name per condition); CONDITION_TEXT has the full plain words for the body. */
+export const CONDITION_SHORT = CONDITION_NAME;
 
 const SUBJECT_MAX = 160;
 const STATES_WITH_ACK_LINK = new Set(['unacknowledged', 'returned-unacknowledged']);
@@ -51,6 +41,12 @@ function labelOf(alarm: NoticeAlarm, ctx: NoticeComposeContext): string {
   return decoder.name ?? `Decoder ${decoder.id}`;
 }
 
+/** How the alarm's decoder is linked, when the alarm is about a decoder whose port is known. */
+function linkOf(alarm: NoticeAlarm, ctx: NoticeComposeContext): DecoderLink | null {
+  const port = ctx.decoders?.find((d) => d.id === alarm.source)?.port;
+  return port === undefined ? null : decoderLinkOf(port);
+}
+
 function actorOf(entry: Entry): string | null {
   return entry.last.actor ?? entry.alarm?.ackedBy ?? null;
 }
@@ -63,12 +59,15 @@ function phrase(entry: Entry, listed = false): string {
   const alarm = entry.alarm;
   if (!alarm) return `alarm #${entry.alarmId} (no longer on record)`;
   const condition = CONDITION_SHORT[alarm.condition];
-  const unacked = alarm.state === 'returned-unacknowledged';
+  // Gone but not acknowledged (latched or not): the subject says so in the same words as the body's
+  // status, whichever notice the mail is for, so the two can never disagree.
+  const pending = alarmStanding(alarm.state, alarm.active) === 'cleared-unacknowledged';
   switch (entry.last.kind) {
     case 'raised':
-      return condition;
+      return pending ? `${condition}, ${BACK_TO_NORMAL_NEEDS_ACK}` : condition;
     case 'escalated':
     case 'repeat':
+      if (pending) return `${condition}, ${BACK_TO_NORMAL_NEEDS_ACK}`;
       return listed ? condition : `${condition}, not acknowledged`;
     case 'acknowledged': {
       if (listed) return `${condition} (acknowledged)`;
@@ -76,11 +75,13 @@ function phrase(entry: Entry, listed = false): string {
       return actor ? `${condition}, acknowledged by ${actor}` : `${condition}, acknowledged`;
     }
     case 'cleared':
-      if (listed) return unacked ? 'back to normal (not acknowledged)' : 'back to normal';
-      return unacked ? 'back to normal, not yet acknowledged' : 'back to normal';
+      // The mail shows the alarm as it stands when composed: a condition that came back meanwhile is not "back to normal".
+      if (alarm.active) return listed ? `${condition} (back again)` : `${condition}, back again after clearing`;
+      return pending ? BACK_TO_NORMAL_NEEDS_ACK : 'back to normal';
     case 'shelved':
       return listed ? `${condition} (shelved)` : `${condition}, shelved`;
     case 'unshelved':
+      if (pending) return `${condition}, ${BACK_TO_NORMAL_NEEDS_ACK}`;
       return listed ? `${condition} (unshelved)` : `${condition}, back from shelving`;
   }
 }
@@ -152,7 +153,7 @@ function entryFacts(entry: Entry, digest: Digest, ctx: NoticeComposeContext): En
   if (alarm.loopId && alarm.loopId !== loop?.name) rows.push({ label: 'Loop', value: alarm.loopId });
   const text = CONDITION_TEXT[alarm.condition];
   rows.push({ label: 'What it means', value: text.words });
-  rows.push({ label: 'What to check', value: text.check });
+  rows.push({ label: 'What to check', value: checkAdvice(alarm.condition, linkOf(alarm, ctx)) });
   rows.push({ label: 'Since', value: `${formatSiteAndUtc(alarm.raisedAt, ctx.timeZone)}, ${formatElapsed(ctx.now - alarm.raisedAt)} ago` });
 
   const kind = entry.last.kind;
@@ -196,19 +197,16 @@ function quoted(text: string): string {
 }
 
 function statusWords(alarm: NoticeAlarm): string {
-  switch (alarm.state) {
-    case 'unacknowledged':
-      return 'active, not acknowledged';
-    case 'acknowledged':
-      return 'active, acknowledged';
-    case 'returned-unacknowledged':
-      return 'back to normal, but nobody has acknowledged it yet';
+  const standing = alarmStanding(alarm.state, alarm.active);
+  switch (standing) {
     case 'shelved':
-      return 'shelved (hidden for a while, comes back by itself)';
+      return `${STANDING_WORDS.shelved} (hidden for a while, comes back by itself)`;
     case 'out-of-service':
-      return 'loop out of service';
-    case 'normal':
-      return 'closed: back to normal';
+      return `loop ${STANDING_WORDS['out-of-service']}`;
+    case 'closed':
+      return `${STANDING_WORDS.closed}: back to normal and acknowledged`;
+    default:
+      return STANDING_WORDS[standing];
   }
 }
 

@@ -17,6 +17,8 @@ export interface LoopRef {
 export interface DecoderRef {
   id: string;
   name?: string | null | undefined;
+  /** The configured port: what to check when the decoder goes quiet depends on how it is linked. */
+  port?: string | undefined;
 }
 
 /** What composing notice mail needs that does not change between mails. */
@@ -49,7 +51,7 @@ export function noticeSettingsFromConfig(config: SiteConfig, ackSecret: Buffer |
     publicUrl: publicUrlFor(config.web),
     contacts: config.contacts,
     loops: config.loops.map((loop) => ({ id: loop.id, name: loop.name, location: loop.location ?? null })),
-    decoders: config.decoders.map((decoder) => ({ id: decoder.id, name: decoder.name ?? null })),
+    decoders: config.decoders.map((decoder) => ({ id: decoder.id, name: decoder.name ?? null, port: decoder.port })),
     ack: ackSecret ? { secret: ackSecret, ttlMs: config.web.ack_link_ttl, newTokenId: newAckTokenId } : null,
     newMessageId: createMessageIdFactory(messageIdDomain(config.mail.from)),
   };

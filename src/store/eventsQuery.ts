@@ -1,6 +1,6 @@
 import type { SqliteDatabase } from './openDatabase.js';
 import { AUDIT_ACTIONS, type AuditAction } from '../alarms/alarmTypes.js';
-import { CONDITION_PRIORITY, PRIORITIES, type Condition, type Priority } from '../model/condition.js';
+import { CONDITION_PRIORITY, CONDITIONS, PRIORITIES, type Condition, type Priority } from '../model/condition.js';
 import { LOOP_STATES, type LoopState } from '../model/loopState.js';
 import { checkRowValue } from './checkRowValue.js';
 import { fromIso, toIso } from './isoTime.js';
@@ -21,6 +21,9 @@ export interface TimelineEvent {
   toState: LoopState | null;
   alarmId: number | null;
   action: AuditAction | null;
+  /** The audit row's own note and the condition of its alarm (null for state changes), for pages that word rows themselves. */
+  note: string | null;
+  condition: Condition | null;
 }
 
 export interface TimelineQuery {
@@ -139,6 +142,8 @@ export function createEventsQuery(db: SqliteDatabase): EventsQuery {
       toState: to,
       alarmId: null,
       action: null,
+      note: null,
+      condition: null,
       position: { at: row.at, rank: RANK['state-change'], id: row.id },
     };
   };
@@ -158,6 +163,8 @@ export function createEventsQuery(db: SqliteDatabase): EventsQuery {
       toState: null,
       alarmId: row.alarm_id,
       action,
+      note: row.note,
+      condition: row.condition === null ? null : checkRowValue(row.condition, CONDITIONS, `${where}.condition`),
       position: { at: row.at, rank: RANK.audit, id: row.id },
     };
   };

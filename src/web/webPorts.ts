@@ -34,7 +34,8 @@ export interface LoopView {
   inService: boolean;
   serviceNote: string | null;
   /** The most urgent listed alarm on this loop, if any. */
-  alarm: { id: number; condition: Condition; priority: Priority; state: AlarmState } | null;
+  /** `active`: the condition is present now (a latched alarm stays listed after it has gone). */
+  alarm: { id: number; condition: Condition; priority: Priority; state: AlarmState; active: boolean } | null;
   intermittent: boolean;
 }
 
@@ -87,6 +88,10 @@ export interface EventView {
   actor: string | null;
   fromState: LoopState | null;
   toState: LoopState | null;
+  /** Audit rows: what was done, its note and the alarm's condition, so pages can word the row for people. */
+  action?: AuditAction | null;
+  note?: string | null;
+  condition?: Condition | null;
 }
 
 export interface EventQuery {

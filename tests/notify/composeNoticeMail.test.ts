@@ -130,7 +130,7 @@ describe('composeNoticeMail: body', () => {
   it('a clear before anyone acknowledged still offers the link (returned-unacknowledged)', () => {
     const back = alarm(1, { loopId: 'well', state: 'returned-unacknowledged', active: false, clearedAt: t0 + 5 * 60_000 });
     const mail = composeNoticeMail(digest([notice(1, 'cleared')]), ctx([back], {}, t0 + 6 * 60_000));
-    expect(mail.subject).toBe('[ALARM] Ridgeway Farm: Well pit — back to normal, not yet acknowledged');
+    expect(mail.subject).toBe('[ALARM] Ridgeway Farm: Well pit — back to normal — still needs acknowledging');
     expect(mail.text).toContain('/ack/');
   });
 

@@ -45,7 +45,7 @@ describe('GET /api/v1/loops', () => {
     expect(seed.since).toMatch(ISO_UTC);
     // 12 minutes before the fixture clock (2026-12-01T20:00:00Z).
     expect(seed.since).toBe('2026-12-01T19:48:00.000Z');
-    expect(seed.alarm).toEqual({ id: 7, condition: 'tripped', priority: 'alarm', state: 'unacknowledged' });
+    expect(seed.alarm).toEqual({ id: 7, condition: 'tripped', priority: 'alarm', state: 'unacknowledged', active: true });
   });
 
   it('refuses unknown query keys by name', async () => {

@@ -99,7 +99,7 @@ describe('the board on a phone, in headless Chromium', () => {
     const hen = web.site.loops.find((l) => l.id === 'hen-house')!;
     hen.state = 'tripped';
     hen.sinceMs = web.clock.now;
-    hen.alarm = { id: 10, condition: 'tripped', priority: 'alarm', state: 'unacknowledged' };
+    hen.alarm = { id: 10, condition: 'tripped', priority: 'alarm', state: 'unacknowledged', active: true };
     web.site.live.emit({ type: 'loops' });
     const henCard = page.locator('li.card[data-loop="hen-house"]');
     await expect.poll(() => henCard.textContent()).toContain('Tripped');

@@ -50,7 +50,7 @@ describe('the board', () => {
 
   it('each state draws a different shape', async () => {
     const { stateShape } = await import('../../src/web/pages/stateShape.js');
-    const states = ['healthy', 'tripped', 'open', 'shorted', 'offline', 'unknown', 'out-of-service'] as const;
+    const states = ['healthy', 'tripped', 'open', 'shorted', 'offline', 'unknown', 'out-of-service', 'back-to-normal'] as const;
     const drawings = states.map((s) => stateShape(s).value.replace(/class="[^"]*"/, ''));
     expect(new Set(drawings).size).toBe(states.length);
   });
@@ -77,7 +77,9 @@ describe('the alarm page', () => {
     expect(body).toContain('Old granary');
     expect(body).toContain('<time datetime="2026-12-01T19:48:00.000Z">19:48</time>');
     expect(body).toContain('Kitchen tablet');
-    expect(body).toContain('<b>raise</b> by monitor');
+    // People's words, not the action code or the monitor's own name for itself (issue 9, item 19).
+    expect(body).toContain('<b>raised</b>');
+    expect(body).not.toContain('<b>raise</b>');
     expect(body).toContain('action="/alarms/7/ack"');
     expect(body).toContain('action="/alarms/7/shelve"');
     expect(body).toContain('name="note"');
@@ -133,7 +135,8 @@ describe('the loop page', () => {
     expect(res.statusCode).toBe(200);
     const svg = /<svg viewBox="0 0 400 \d+" role="img"[\s\S]*?<\/svg>/.exec(res.body)?.[0];
     expect(svg).toBeDefined();
-    for (const lane of ['healthy', 'tripped', 'open', 'shorted', 'offline', 'unknown']) expect(svg).toContain(`>${lane}</text>`);
+    // The lanes use the same words as the board's states (issue 9, item 19).
+    for (const lane of ['Healthy', 'Tripped', 'Open circuit', 'Short circuit', 'Decoder offline', 'Not known yet']) expect(svg).toContain(`>${lane}</text>`);
     expect(svg).toContain('<polyline');
     expect(svg).toContain('<polygon');
     // The fixture's gap (minutes 601–639 without pulses) splits the trace in two.
@@ -210,8 +213,8 @@ describe('history', () => {
     expect(lines[0]).toBe('time_utc,time_local_Europe/London,loop,kind,priority,summary,actor,from_state,to_state');
     expect(lines.at(-1)).toBe('');
     expect(lines).toHaveLength(1 + 250 + 1);
-    expect(lines[1]).toBe('2026-12-01T20:00:00.000Z,2026-12-01 20:00:00,hen-house,audit,alarm,event 250,otto,,');
-    expect(lines[2]).toBe(`2026-12-01T19:50:00.000Z,2026-12-01 19:50:00,seed-store,state-change,trouble,"'=HYPERLINK(""http://x"") ""quoted"", with comma",,healthy,tripped`);
+    expect(lines[1]).toBe('2026-12-01T20:00:00.000Z,2026-12-01 20:00:00,hen-house,audit,alarm,"Tripped: acknowledged by otto: “checked, event 250”",otto,,');
+    expect(lines[2]).toBe(`2026-12-01T19:50:00.000Z,2026-12-01 19:50:00,seed-store,state-change,trouble,"Tripped (was healthy): =HYPERLINK(""http://x"") ""quoted"", with comma",,healthy,tripped`);
   });
 });
 

@@ -1,6 +1,7 @@
 import type { FastifyInstance, FastifyReply } from 'fastify';
 import { formBody, formField, freeTextField } from '../http/formFields.js';
 import { renderAckConfirmPage, renderAckDonePage } from '../pages/ackLinkPage.js';
+import { siteNamesFrom } from '../pages/siteNames.js';
 import { renderMessagePage } from '../pages/messagePage.js';
 import type { WebContext } from '../webContext.js';
 
@@ -63,7 +64,7 @@ export function registerAckLinkRoutes(app: FastifyInstance, ctx: WebContext): vo
     if (ctx.ackLinks.isUsed(checked.claims.tokenId)) return refuse(reply, 'used');
     return reply
       .type('text/html; charset=utf-8')
-      .send(renderAckConfirmPage({ siteName: ctx.config.site.name, timeZone: ctx.config.site.timezone, now: ctx.now(), alarm: checked.alarm, token }));
+      .send(renderAckConfirmPage({ siteName: ctx.config.site.name, timeZone: ctx.config.site.timezone, now: ctx.now(), alarm: checked.alarm, token, names: siteNamesFrom(ctx.config) }));
   });
 
   app.post('/ack/:token', async (request, reply) => {
@@ -98,6 +99,6 @@ export function registerAckLinkRoutes(app: FastifyInstance, ctx: WebContext): vo
           }),
         );
     }
-    return reply.type('text/html; charset=utf-8').send(renderAckDonePage({ siteName: ctx.config.site.name, alarm: fresh }));
+    return reply.type('text/html; charset=utf-8').send(renderAckDonePage({ siteName: ctx.config.site.name, alarm: fresh, names: siteNamesFrom(ctx.config) }));
   });
 }

@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { ALARM_STATES } from '../../model/alarmState.js';
+import { STANDING_WORDS } from '../../model/alarmStanding.js';
 import { CONDITIONS, PRIORITIES } from '../../model/condition.js';
 import { LOOP_STATES } from '../../model/loopState.js';
 import { AUDIT_ACTIONS } from '../../alarms/alarmTypes.js';
@@ -101,12 +102,23 @@ export const timelineQuerySchema = z.strictObject({
 
 // ---------- responses ----------
 
+/** The alarm state, with the words the pages and mail use for each, so the API docs say the same. */
+const alarmStateField = z
+  .enum(ALARM_STATES)
+  .describe(
+    `unacknowledged: ${STANDING_WORDS['active-unacknowledged']} (with active: false, a latched alarm whose condition has gone: ${STANDING_WORDS['cleared-unacknowledged']}); ` +
+      `acknowledged: ${STANDING_WORDS['active-acknowledged']}; returned-unacknowledged: ${STANDING_WORDS['cleared-unacknowledged']}; ` +
+      `shelved: ${STANDING_WORDS.shelved}; out-of-service: ${STANDING_WORDS['out-of-service']}; normal: ${STANDING_WORDS.closed} (back to normal and acknowledged)`,
+  );
+const activeField = z.boolean().describe('Whether the condition is present now; false once it is back to normal');
+
 export const loopAlarmSchema = z
   .object({
     id: z.number().int(),
     condition: z.enum(CONDITIONS),
     priority: z.enum(PRIORITIES),
-    state: z.enum(ALARM_STATES),
+    state: alarmStateField,
+    active: activeField,
   })
   .nullable()
   .describe('The most urgent listed alarm on this loop');
@@ -148,8 +160,8 @@ export const alarmSchema = z.object({
   source: z.string(),
   condition: z.enum(CONDITIONS),
   priority: z.enum(PRIORITIES),
-  state: z.enum(ALARM_STATES),
-  active: z.boolean(),
+  state: alarmStateField,
+  active: activeField,
   raisedAt: isoTime,
   clearedAt: nullableIso,
   ackedAt: nullableIso,

@@ -54,7 +54,7 @@ export function loopToApi(loop: LoopView): z.infer<typeof loopSchema> {
     inService: loop.inService,
     serviceNote: loop.serviceNote,
     intermittent: loop.intermittent,
-    alarm: loop.alarm ? { id: loop.alarm.id, condition: loop.alarm.condition, priority: loop.alarm.priority, state: loop.alarm.state } : null,
+    alarm: loop.alarm ? { id: loop.alarm.id, condition: loop.alarm.condition, priority: loop.alarm.priority, state: loop.alarm.state, active: loop.alarm.active } : null,
   };
 }
 

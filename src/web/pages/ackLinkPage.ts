@@ -1,10 +1,12 @@
 import { CONDITION_TEXT } from '../../model/condition.js';
 import type { AlarmDetailView } from '../webPorts.js';
-import { alarmTitle } from './alarmPage.js';
+import { alarmNoun, alarmTitle } from './alarmPage.js';
+import { capitalFirst } from './boardPage.js';
+import type { SiteNames } from './siteNames.js';
 import { html } from './html.js';
 import { renderPage } from './layout.js';
-import { agoWords, siteTime, spanWords } from './siteTime.js';
-import { ALARM_STATE_LABEL, canAcknowledge } from './stateWords.js';
+import { agoWords, siteTime } from './siteTime.js';
+import { canAcknowledge, standingWords } from './stateWords.js';
 
 /**
  * The page an acknowledge link from a mail opens. Opening it changes nothing (mail scanners open
@@ -16,16 +18,17 @@ export function renderAckConfirmPage(data: {
   now: number;
   alarm: AlarmDetailView;
   token: string;
+  names: SiteNames;
 }): string {
   const { alarm } = data;
   const summary = html`<dl class="facts">
   <dt>What</dt><dd>${CONDITION_TEXT[alarm.condition].words}</dd>
   <dt>Since</dt><dd>${siteTime(alarm.raisedAtMs, data.timeZone, data.now)} (${agoWords(data.now - alarm.raisedAtMs)})</dd>
-  <dt>Now</dt><dd>${ALARM_STATE_LABEL[alarm.state]}${alarm.state === 'acknowledged' && alarm.ackedBy ? html` by ${alarm.ackedBy}` : ''}</dd>
+  <dt>Now</dt><dd>${capitalFirst(standingWords(alarm))}${alarm.state === 'acknowledged' && alarm.ackedBy ? html` by ${alarm.ackedBy}` : ''}</dd>
 </dl>`;
   const body = canAcknowledge(alarm.state)
-    ? html`<h1>Acknowledge this alarm?</h1>
-<p class="status-title">${alarmTitle(alarm)}</p>
+    ? html`<h1>Acknowledge this ${alarmNoun(alarm)}?</h1>
+<p class="status-title">${alarmTitle(alarm, data.names)}</p>
 ${summary}
 <form method="post" action="/ack/${data.token}" class="panel">
   <input type="hidden" name="alarm" value="${alarm.id}">
@@ -35,14 +38,14 @@ ${summary}
 </form>
 <p class="note">Nothing has been acknowledged yet: only the button does that. The link works once.</p>`
     : html`<h1>Nothing to acknowledge</h1>
-<p class="status-title">${alarmTitle(alarm)}</p>
+<p class="status-title">${alarmTitle(alarm, data.names)}</p>
 ${summary}`;
   return renderPage({ title: 'Acknowledge', siteName: data.siteName, principal: null, body });
 }
 
-export function renderAckDonePage(data: { siteName: string; alarm: AlarmDetailView }): string {
+export function renderAckDonePage(data: { siteName: string; alarm: AlarmDetailView; names: SiteNames }): string {
   const body = html`<h1>Acknowledged</h1>
-<p class="flash">${alarmTitle(data.alarm)} is acknowledged. The people told about it so far hear that it has been.</p>
-<p><a class="button" href="/alarms/${data.alarm.id}">Open the alarm (sign-in needed)</a></p>`;
+<p class="flash">${alarmTitle(data.alarm, data.names)} is acknowledged. The people told about it so far hear that it has been.</p>
+<p><a class="button" href="/alarms/${data.alarm.id}">Open the ${alarmNoun(data.alarm)} (sign in first)</a></p>`;
   return renderPage({ title: 'Acknowledged', siteName: data.siteName, principal: null, body });
 }

@@ -1,12 +1,17 @@
-import { CONDITION_TEXT } from '../../model/condition.js';
+import { alarmStanding, type AlarmStanding } from '../../model/alarmStanding.js';
+import { CONDITION_NAME, CONDITION_TEXT } from '../../model/condition.js';
+import { checkAdvice } from '../../model/decoderLink.js';
 import type { Principal } from '../auth/principal.js';
 import { roleAllows } from '../auth/roles.js';
 import type { AlarmDetailView } from '../webPorts.js';
+import { auditWords } from './auditWords.js';
+import { capitalFirst } from './boardPage.js';
 import { html, type SafeHtml } from './html.js';
 import { renderPage } from './layout.js';
-import { agoWords, siteTime, spanWords } from './siteTime.js';
-import { stateShape } from './stateShape.js';
-import { ALARM_STATE_LABEL, PRIORITY_LABEL, canAcknowledge, canShelve, type BoardState } from './stateWords.js';
+import { agoWords, siteTime } from './siteTime.js';
+import { sourceLabel, type SiteNames } from './siteNames.js';
+import { stateShape, type ShapeName } from './stateShape.js';
+import { PRIORITY_LABEL, canAcknowledge, canShelve, standingWords } from './stateWords.js';
 
 export interface AlarmPageData {
   siteName: string;
@@ -14,11 +19,12 @@ export interface AlarmPageData {
   now: number;
   alarm: AlarmDetailView;
   maxShelveMinutes: number;
+  names: SiteNames;
 }
 
 const SHELVE_CHOICES_MIN = [30, 60, 120, 240, 480, 720, 1440];
 
-function conditionShape(alarm: AlarmDetailView): BoardState {
+function conditionShape(alarm: AlarmDetailView): ShapeName {
   switch (alarm.condition) {
     case 'tripped':
     case 'open':
@@ -30,9 +36,34 @@ function conditionShape(alarm: AlarmDetailView): BoardState {
   }
 }
 
-export function alarmTitle(alarm: AlarmDetailView): string {
-  const where = alarm.loopName ?? (alarm.source === 'system' ? 'the monitor' : alarm.source);
-  return `${PRIORITY_LABEL[alarm.priority]}: ${where} — ${alarm.condition}`;
+/**
+ * The banner's look follows how the alarm stands: the condition's colours while it is present, an
+ * attention look while it is back to normal but unacknowledged, and a quiet one once it is closed,
+ * shelved or out of service (a closed alarm keeps no red banner).
+ */
+function bannerLook(alarm: AlarmDetailView, standing: AlarmStanding): { tone: string; shape: ShapeName } {
+  switch (standing) {
+    case 'active-unacknowledged':
+    case 'active-acknowledged':
+      return { tone: `state-${conditionShape(alarm)}`, shape: conditionShape(alarm) };
+    case 'cleared-unacknowledged':
+      return { tone: `state-back-to-normal attention-${alarm.priority}`, shape: 'back-to-normal' };
+    case 'closed':
+      return { tone: 'state-closed', shape: 'healthy' };
+    case 'shelved':
+    case 'out-of-service':
+      return { tone: 'state-out-of-service', shape: 'out-of-service' };
+  }
+}
+
+/** "Alarm: Seed store — tripped", "Trouble: Decoder in the farm office — decoder offline". */
+export function alarmTitle(alarm: AlarmDetailView, names: SiteNames): string {
+  return `${PRIORITY_LABEL[alarm.priority]}: ${sourceLabel(alarm, names)} — ${CONDITION_NAME[alarm.condition]}`;
+}
+
+/** What the alarm is called in sentences: an alarm, or a trouble (system trouble included). */
+export function alarmNoun(alarm: { priority: AlarmDetailView['priority'] }): 'alarm' | 'trouble' {
+  return alarm.priority === 'alarm' ? 'alarm' : 'trouble';
 }
 
 function when(ms: number, data: AlarmPageData): SafeHtml {
@@ -60,7 +91,7 @@ function actions(data: AlarmPageData, principal: Principal): SafeHtml {
     if (choices.length === 0) choices.push(data.maxShelveMinutes);
     parts.push(html`<form method="post" action="/alarms/${alarm.id}/shelve" class="panel form-shelve">
   <h2>Shelve</h2>
-  <p class="note">Hides the alarm for a while; it comes back by itself.</p>
+  <p class="note">Hides the ${alarmNoun(alarm)} for a while; it comes back by itself.</p>
   ${csrf}
   <label for="shelve-minutes">For</label>
   <select id="shelve-minutes" name="minutes">${choices.map((m) => html`<option value="${m}">${m < 60 ? `${m} min` : `${m / 60} h`}</option>`)}</select>
@@ -79,11 +110,10 @@ function actions(data: AlarmPageData, principal: Principal): SafeHtml {
 }
 
 export function renderAlarmPage(data: AlarmPageData, principal: Principal, flash: string | null): string {
-  const { alarm } = data;
+  const { alarm, names } = data;
   const text = CONDITION_TEXT[alarm.condition];
-  const where = alarm.loopName
-    ? html`${alarm.loopName}${alarm.location ? html`, ${alarm.location}` : ''}`
-    : html`${alarm.source === 'system' ? 'the monitor itself' : html`decoder ${alarm.source}`}`;
+  const standing = alarmStanding(alarm.state, alarm.active);
+  const where = alarm.loopName ? html`${alarm.loopName}${alarm.location ? html`, ${alarm.location}` : ''}` : html`${sourceLabel(alarm, names)}`;
   const facts: SafeHtml[] = [
     html`<dt>What</dt><dd>${text.words}</dd>`,
     html`<dt>Where</dt><dd>${where}</dd>`,
@@ -94,7 +124,7 @@ export function renderAlarmPage(data: AlarmPageData, principal: Principal, flash
     facts.push(html`<dt>Acknowledged</dt><dd>${when(alarm.ackedAtMs, data)} by ${alarm.ackedBy ?? 'someone'}${alarm.note ? html`: “${alarm.note}”` : ''}</dd>`);
   }
   if (alarm.state === 'shelved' && alarm.shelvedUntilMs !== null) {
-    facts.push(html`<dt>Shelved until</dt><dd>${siteTime(alarm.shelvedUntilMs, data.timeZone, data.now)}${alarm.shelveReason ? html` — ${alarm.shelveReason}` : ''}</dd>`);
+    facts.push(html`<dt>Shelved until</dt><dd>${siteTime(alarm.shelvedUntilMs, data.timeZone, data.now)}${alarm.shelveReason ? html` — “${alarm.shelveReason}”` : ''}</dd>`);
   }
   const told =
     alarm.notified.length > 0
@@ -102,24 +132,26 @@ export function renderAlarmPage(data: AlarmPageData, principal: Principal, flash
       : html`<p class="note">Nobody has been sent a mail about this yet.</p>`;
   const trail =
     alarm.audit.length > 0
-      ? html`<ol class="trail">${alarm.audit.map(
-          (a) => html`<li><time datetime="${new Date(a.atMs).toISOString()}">${siteTime(a.atMs, data.timeZone, data.now)}</time> <b>${a.action}</b> by ${a.actor}${a.note ? html`: ${a.note}` : ''}</li>`,
-        )}</ol>`
+      ? html`<ol class="trail">${alarm.audit.map((a) => {
+          const words = auditWords(a, names.contacts, data.timeZone, data.now);
+          return html`<li><time datetime="${new Date(a.atMs).toISOString()}">${siteTime(a.atMs, data.timeZone, data.now)}</time> <b>${words.what}</b>${words.who ? html` by ${words.who}` : ''}${words.said ? html`: “${words.said}”` : ''}</li>`;
+        })}</ol>`
       : html`<p class="note">No entries.</p>`;
-  const shapeState = conditionShape(alarm);
-  const body = html`<div class="status status-${alarm.priority} state-${shapeState}">
-  ${stateShape(shapeState, 48)}
+  const look = bannerLook(alarm, standing);
+  const check = checkAdvice(alarm.condition, alarm.loopId === null && alarm.source !== 'system' ? names.link(alarm.source) : null);
+  const body = html`<div class="status status-${alarm.priority} ${look.tone}">
+  ${stateShape(look.shape, 48)}
   <div>
     <p class="status-priority">${PRIORITY_LABEL[alarm.priority]}</p>
-    <h1 class="status-title">${alarm.loopName ?? (alarm.source === 'system' ? 'The monitor' : alarm.source)}: ${alarm.condition}</h1>
-    <p class="status-state">${ALARM_STATE_LABEL[alarm.state]}${alarm.active ? '' : ' · condition has cleared'}</p>
+    <h1 class="status-title">${sourceLabel(alarm, names)}: ${CONDITION_NAME[alarm.condition]}</h1>
+    <p class="status-state">${capitalFirst(standingWords(alarm))}</p>
   </div>
 </div>
 <dl class="facts">${facts}</dl>
-<section class="panel check"><h2>What to check</h2><p>${text.check}</p></section>
+${standing === 'closed' ? '' : html`<section class="panel check"><h2>What to check</h2><p>${check}</p></section>`}
 ${actions(data, principal)}
 ${alarm.loopId ? html`<p><a class="button button-quiet" href="/loops/${encodeURIComponent(alarm.loopId)}">The loop and its last 24 hours</a></p>` : ''}
 <section><h2>Who was told</h2>${told}</section>
 <section><h2>What happened</h2>${trail}</section>`;
-  return renderPage({ title: alarmTitle(alarm), siteName: data.siteName, principal, section: 'none', flash, body });
+  return renderPage({ title: alarmTitle(alarm, names), siteName: data.siteName, principal, section: 'none', flash, body });
 }

@@ -1,11 +1,14 @@
-import { PRIORITIES } from '../../model/condition.js';
+import { CONDITION_NAME, PRIORITIES } from '../../model/condition.js';
 import type { Principal } from '../auth/principal.js';
 import type { EventView, LoopView } from '../webPorts.js';
 import { historyQuery, HISTORY_PERIODS, type HistoryFilter } from './historyFilter.js';
 import { html } from './html.js';
 import { renderPage } from './layout.js';
+import { auditWords } from './auditWords.js';
+import { capitalFirst } from './boardPage.js';
+import type { SiteNames } from './siteNames.js';
 import { siteTime } from './siteTime.js';
-import { PRIORITY_LABEL } from './stateWords.js';
+import { BOARD_STATE_LABEL, PRIORITY_LABEL } from './stateWords.js';
 
 export interface HistoryPageData {
   siteName: string;
@@ -15,6 +18,27 @@ export interface HistoryPageData {
   filter: HistoryFilter;
   items: EventView[];
   nextCursor: string | null;
+  names: SiteNames;
+}
+
+/**
+ * One history row in people's words: "Tripped (was healthy): no valid pulse for 1500 ms", "Tripped:
+ * step 2: told On-call phone". `who` is the person who acted, if one did; `said` their own note.
+ */
+export function eventWords(e: EventView, names: SiteNames, timeZone: string, now: number): { what: string; who: string | null; said: string | null; text: string } {
+  if (e.kind === 'state-change' && e.toState) {
+    const was = e.fromState ? ` (was ${BOARD_STATE_LABEL[e.fromState].toLowerCase()})` : '';
+    const reason = e.summary.includes(': ') ? e.summary.slice(e.summary.indexOf(': ') + 2) : '';
+    const what = `${BOARD_STATE_LABEL[e.toState]}${was}${reason ? `: ${reason}` : ''}`;
+    return { what, who: null, said: null, text: what };
+  }
+  if (e.kind === 'audit' && e.action) {
+    const words = auditWords({ action: e.action, actor: e.actor ?? 'system', note: e.note ?? null }, names.contacts, timeZone, now);
+    const what = e.condition ? `${capitalFirst(CONDITION_NAME[e.condition])}: ${words.what}` : capitalFirst(words.what);
+    const text = `${what}${words.who ? ` by ${words.who}` : ''}${words.said ? `: “${words.said}”` : ''}`;
+    return { ...words, what, text };
+  }
+  return { what: e.summary, who: e.actor, said: null, text: e.summary };
 }
 
 const PERIOD_LABEL = { '24h': 'Last 24 hours', '7d': 'Last 7 days', '30d': 'Last 30 days', '1y': 'Last year', all: 'All time' } as const;
@@ -22,6 +46,10 @@ const PERIOD_LABEL = { '24h': 'Last 24 hours', '7d': 'Last 7 days', '30d': 'Last
 export function renderHistoryPage(data: HistoryPageData, principal: Principal): string {
   const { filter } = data;
   const loopNames = new Map(data.loops.map((l) => [l.id, l.name]));
+  const row = (e: EventView) => {
+    const words = eventWords(e, data.names, data.timeZone, data.now);
+    return html`<span class="event-what">${words.what}${words.who ? html` by ${words.who}` : ''}${words.said ? html`: “${words.said}”` : ''}</span>`;
+  };
   const selected = (on: boolean) => (on ? html` selected` : '');
   const form = html`<form method="get" action="/history" class="panel filters">
   <label for="f-loop">Loop</label>
@@ -41,8 +69,8 @@ export function renderHistoryPage(data: HistoryPageData, principal: Principal): 
       ? html`<ol class="events">${data.items.map(
           (e) => html`<li class="event ${e.priority ? `event-${e.priority}` : ''}">
   <time datetime="${new Date(e.atMs).toISOString()}">${siteTime(e.atMs, data.timeZone, data.now)}</time>
-  <span class="event-where">${e.loopId ? (loopNames.get(e.loopId) ?? e.loopId) : 'monitor'}${e.priority ? html` · ${PRIORITY_LABEL[e.priority]}` : ''}</span>
-  <span class="event-what">${e.summary}${e.actor ? html` — ${e.actor}` : ''}</span>
+  <span class="event-where">${e.loopId ? (loopNames.get(e.loopId) ?? e.loopId) : 'The monitor and decoders'}${e.priority ? html` · ${PRIORITY_LABEL[e.priority]}` : ''}</span>
+  ${row(e)}
 </li>`,
         )}</ol>`
       : html`<p class="note">Nothing happened in this period.</p>`;

@@ -1,12 +1,15 @@
 import type { Principal } from '../auth/principal.js';
 import { roleAllows } from '../auth/roles.js';
 import type { LoopDetailView, LoopTimeline } from '../webPorts.js';
-import { boardState } from './boardOrder.js';
+import { BACK_TO_NORMAL_NEEDS_ACK } from '../../model/alarmStanding.js';
+import { CONDITION_NAME } from '../../model/condition.js';
+import { capitalFirst, cardLook } from './boardPage.js';
 import { html, type SafeHtml } from './html.js';
 import { renderPage } from './layout.js';
-import { agoWords, sinceWords, siteTime, spanWords } from './siteTime.js';
+import { agoWords, sinceWords, siteTime } from './siteTime.js';
+import type { SiteNames } from './siteNames.js';
 import { stateShape } from './stateShape.js';
-import { ALARM_STATE_LABEL, BOARD_STATE_LABEL, PRIORITY_LABEL } from './stateWords.js';
+import { BOARD_STATE_LABEL, PRIORITY_LABEL, standingWords } from './stateWords.js';
 import { renderTimeline } from './timelineSvg.js';
 
 export interface LoopPageData {
@@ -17,6 +20,7 @@ export interface LoopPageData {
   timeline: LoopTimeline | null;
   intervalMinRatio: number;
   intervalMaxRatio: number;
+  names: SiteNames;
 }
 
 const fmt = (n: number | null, unit: string) => (n === null ? '—' : `${n.toFixed(n >= 100 ? 0 : 1)} ${unit}`);
@@ -46,22 +50,24 @@ function serviceForm(data: LoopPageData, principal: Principal): SafeHtml {
 
 export function renderLoopPage(data: LoopPageData, principal: Principal, flash: string | null): string {
   const { loop } = data;
-  const state = boardState(loop);
+  const { look, pendingAck } = cardLook(loop);
   const q = loop.quality;
   const alarm = loop.alarm
-    ? html`<p><a class="button button-main" href="/alarms/${loop.alarm.id}">Open the ${PRIORITY_LABEL[loop.alarm.priority].toLowerCase()}: ${loop.alarm.condition}, ${ALARM_STATE_LABEL[loop.alarm.state]}</a></p>`
+    ? html`<p><a class="button button-main" href="/alarms/${loop.alarm.id}">Open the ${PRIORITY_LABEL[loop.alarm.priority].toLowerCase()}: ${CONDITION_NAME[loop.alarm.condition]}, ${standingWords(loop.alarm)}</a></p>`
     : '';
-  const body = html`<div class="status state-${state}">
-  ${stateShape(state, 48)}
+  const stateText = look === 'back-to-normal' ? `${capitalFirst(BACK_TO_NORMAL_NEEDS_ACK)} · healthy` : BOARD_STATE_LABEL[look];
+  const attention = pendingAck && loop.alarm ? ` attention-${loop.alarm.priority}` : '';
+  const body = html`<div class="status state-${look}${attention}">
+  ${stateShape(look, 48)}
   <div>
     <h1 class="status-title">${loop.name}</h1>
-    <p class="status-state">${BOARD_STATE_LABEL[state]}${loop.intermittent ? ' · intermittent' : ''} since ${siteTime(loop.sinceMs, data.timeZone, data.now)} (${sinceWords(data.now - loop.sinceMs)})</p>
+    <p class="status-state">${stateText}${loop.intermittent ? ' · intermittent' : ''} since ${siteTime(loop.sinceMs, data.timeZone, data.now)} (${sinceWords(data.now - loop.sinceMs)})</p>
   </div>
 </div>
 ${alarm}
 <dl class="facts">
   ${loop.location ? html`<dt>Where</dt><dd>${loop.location}</dd>` : ''}
-  <dt>Wiring</dt><dd>decoder ${loop.decoder}, input ${loop.input}</dd>
+  <dt>Wiring</dt><dd>${data.names.decoder(loop.decoder)}, input ${loop.input}</dd>
   <dt>Last pulse</dt><dd>${loop.lastPulseAtMs === null ? 'none seen yet' : agoWords(data.now - loop.lastPulseAtMs)}</dd>
   <dt>Expected</dt><dd>a pulse every ${loop.periodMs} ms</dd>
   ${loop.inService ? '' : html`<dt>Out of service</dt><dd>${loop.serviceNote ?? ''}</dd>`}

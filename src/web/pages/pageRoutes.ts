@@ -13,6 +13,8 @@ import { csvLine } from './csv.js';
 import { parseHistoryFilter, type HistoryFilter } from './historyFilter.js';
 import { renderHistoryPage } from './historyPage.js';
 import { renderLoopPage } from './loopPage.js';
+import { eventWords } from './historyPage.js';
+import { siteNamesFrom } from './siteNames.js';
 import { siteDateTime } from './siteTime.js';
 
 /** Confirmation lines after POST-redirect-GET, keyed by the `done` query value. */
@@ -42,6 +44,7 @@ export function registerPageRoutes(app: FastifyInstance, ctx: WebContext): void 
   const { read, commands, config } = ctx;
   const tz = config.site.timezone;
   const maxShelveMinutes = Math.max(1, Math.floor(config.web.max_shelve / 60_000));
+  const names = siteNamesFrom(config);
 
   const boardData = (): BoardData => ({
     siteName: read.siteName(),
@@ -49,6 +52,7 @@ export function registerPageRoutes(app: FastifyInstance, ctx: WebContext): void 
     now: ctx.now(),
     loops: read.loops(),
     otherAlarms: read.alarms('active').filter((a) => a.loopId === null),
+    names,
   });
   const operatorForm = (request: FastifyRequest): { principal: Principal; body: Record<string, unknown> } => {
     const principal = requireRole(request, 'operator');
@@ -74,7 +78,7 @@ export function registerPageRoutes(app: FastifyInstance, ctx: WebContext): void 
     const id = alarmIdOf(request);
     const alarm = read.alarm(id);
     if (!alarm) throw notFound('alarm', id);
-    const page = renderAlarmPage({ siteName: read.siteName(), timeZone: tz, now: ctx.now(), alarm, maxShelveMinutes }, principal, flashOf(request));
+    const page = renderAlarmPage({ siteName: read.siteName(), timeZone: tz, now: ctx.now(), alarm, maxShelveMinutes, names }, principal, flashOf(request));
     return sendHtml(reply, page);
   });
 
@@ -122,6 +126,7 @@ export function registerPageRoutes(app: FastifyInstance, ctx: WebContext): void 
         timeline: read.timeline(id, now - DAY_MS, now),
         intervalMinRatio: settings?.interval_min_ratio ?? 0.5,
         intervalMaxRatio: settings?.interval_max_ratio ?? 1.5,
+        names,
       },
       principal,
       flashOf(request),
@@ -161,7 +166,7 @@ export function registerPageRoutes(app: FastifyInstance, ctx: WebContext): void 
       limit: PAGE_SIZE,
     });
     const markup = renderHistoryPage(
-      { siteName: read.siteName(), timeZone: tz, now: ctx.now(), loops: read.loops(), filter, items: page.items, nextCursor: page.nextCursor },
+      { siteName: read.siteName(), timeZone: tz, now: ctx.now(), loops: read.loops(), filter, items: page.items, nextCursor: page.nextCursor, names },
       principal,
     );
     return sendHtml(reply, markup);
@@ -183,7 +188,7 @@ export function registerPageRoutes(app: FastifyInstance, ctx: WebContext): void 
         limit: 1000,
       });
       for (const e of page.items) {
-        lines.push(csvLine([new Date(e.atMs).toISOString(), siteDateTime(e.atMs, tz), e.loopId, e.kind, e.priority, e.summary, e.actor, e.fromState, e.toState]));
+        lines.push(csvLine([new Date(e.atMs).toISOString(), siteDateTime(e.atMs, tz), e.loopId, e.kind, e.priority, eventWords(e, names, tz, ctx.now()).text, e.actor, e.fromState, e.toState]));
       }
       rows += page.items.length;
       cursor = page.nextCursor ?? undefined;

@@ -4,7 +4,8 @@ import type { BoardState } from './stateWords.js';
 /**
  * One silhouette per state, so the state reads without colour (and in a black-and-white screenshot):
  * round with tick = healthy, triangle = tripped, broken ring = open, diamond with bar = shorted,
- * square with slash = offline, dashed ring = not known, flat bar = out of service.
+ * square with slash = offline, dashed ring = not known, flat bar = out of service, and a hollow ring with a
+ * tick for a loop back to normal whose alarm still needs acknowledging (drawn in the attention colour).
  * Drawn in currentColor; the words beside the shape carry the meaning, so the shape is aria-hidden.
  */
 const SHAPES = {
@@ -19,7 +20,12 @@ const SHAPES = {
   unknown:
     '<circle cx="16" cy="16" r="11.5" fill="none" stroke="currentColor" stroke-width="3" stroke-dasharray="4.5 3.5"/><circle cx="16" cy="16" r="3" fill="currentColor"/>',
   'out-of-service': '<rect x="3" y="12" width="26" height="8" rx="2" fill="currentColor"/>',
-} as const satisfies Record<BoardState, string>;
+  'back-to-normal':
+    '<circle cx="16" cy="16" r="12.5" fill="none" stroke="currentColor" stroke-width="3.5"/><path d="M10 16.5l4 4 8-9" fill="none" stroke="currentColor" stroke-width="3.5" stroke-linecap="round" stroke-linejoin="round"/>',
+} as const satisfies Record<ShapeName, string>;
+
+/** A board state, or a loop back to normal whose alarm nobody has acknowledged yet. */
+export type ShapeName = BoardState | 'back-to-normal';
 
 export const SHAPE_NAME = {
   healthy: 'round with a tick',
@@ -29,9 +35,10 @@ export const SHAPE_NAME = {
   offline: 'square with a slash',
   unknown: 'dashed ring',
   'out-of-service': 'flat bar',
-} as const satisfies Record<BoardState, string>;
+  'back-to-normal': 'hollow ring with a tick',
+} as const satisfies Record<ShapeName, string>;
 
-export function stateShape(state: BoardState, size = 32): SafeHtml {
+export function stateShape(state: ShapeName, size = 32): SafeHtml {
   // SHAPES are fixed strings of this module, never user text.
   return html`<svg class="shape shape-${state}" width="${size}" height="${size}" viewBox="0 0 32 32" aria-hidden="true" focusable="false">${trustedHtml(SHAPES[state])}</svg>`;
 }

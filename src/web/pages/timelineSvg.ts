@@ -22,7 +22,8 @@ const LANE_FILL = {
 } as const satisfies Record<LoopState, string>;
 
 const W = 400;
-const LEFT = 74;
+// Room for the longest lane label ("Decoder offline") at 13 px.
+const LEFT = 112;
 const RIGHT = W - 8;
 const LANE_H = 18;
 const LANES_TOP = 6;
@@ -60,7 +61,7 @@ export function renderTimeline(timeline: LoopTimeline, options: TimelineOptions)
   LANES.forEach((state, i) => {
     const top = LANES_TOP + i * LANE_H;
     parts.push(`<rect x="${LEFT}" y="${top}" width="${RIGHT - LEFT}" height="${LANE_H - 2}" fill="currentColor" fill-opacity="0.07"/>`);
-    parts.push(`<text x="${LEFT - 5}" y="${top + LANE_H - 5.5}" text-anchor="end" class="tl-label">${state}</text>`);
+    parts.push(`<text x="${LEFT - 5}" y="${top + LANE_H - 5.5}" text-anchor="end" class="tl-label">${BOARD_STATE_LABEL[state]}</text>`);
   });
   for (const s of timeline.states) {
     const lane = LANES.indexOf(s.state);

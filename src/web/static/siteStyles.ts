@@ -67,10 +67,20 @@ h2 { font-size: 1.15rem; margin: 20px 0 8px; }
 .card.state-tripped { border-color: var(--alarm); border-width: 3px; background: var(--alarm-bg); }
 .card.state-open, .card.state-shorted, .card.state-offline { border-color: var(--trouble); border-width: 3px; background: var(--trouble-bg); }
 .card.state-tripped .card-state { color: var(--alarm); }
+/* Back to normal but not acknowledged: neither the healthy look nor the active one. A thick dashed
+   border in the priority's colour, plain background, hollow shape; it stays until someone acknowledges. */
+.state-back-to-normal { color: var(--alarm); }
+.state-back-to-normal.attention-trouble, .state-back-to-normal.attention-system { color: var(--trouble); }
+.card.state-back-to-normal { border: 4px dashed var(--alarm); background: var(--paper); }
+.card.state-back-to-normal.attention-trouble, .card.state-back-to-normal.attention-system { border-color: var(--trouble); }
+.card.state-back-to-normal .card-state { color: var(--alarm); }
+.card.state-back-to-normal.attention-trouble .card-state, .card.state-back-to-normal.attention-system .card-state { color: var(--trouble); }
 .card.state-open .card-state, .card.state-shorted .card-state, .card.state-offline .card-state { color: var(--trouble); }
 .status { display: flex; gap: 14px; align-items: center; padding: 12px; border: 3px solid currentColor; border-radius: 10px; margin: 12px 0; }
 .status.state-tripped { background: var(--alarm-bg); }
 .status.state-open, .status.state-shorted, .status.state-offline { background: var(--trouble-bg); }
+.status.state-back-to-normal { border: 4px dashed currentColor; background: var(--paper); }
+.status.state-closed { color: var(--quiet); border-width: 2px; background: var(--panel); }
 .status > div { color: var(--ink); }
 .status-title { font-size: 1.4rem; font-weight: 700; margin: 0; overflow-wrap: anywhere; }
 .status-priority { margin: 0; text-transform: uppercase; font-weight: 700; letter-spacing: 0.05em; }
@@ -105,7 +115,15 @@ textarea { resize: vertical; }
 .event-what { overflow-wrap: anywhere; }
 .event-alarm .event-where { color: var(--alarm); font-weight: 600; }
 .filters details { margin-top: 8px; }
-.filters summary { min-height: 48px; display: flex; align-items: center; cursor: pointer; font-weight: 600; }
+/* "Exact times" opens more fields: it is drawn as a button (border, marker, focus ring), not as plain text. */
+.filters summary {
+  min-height: 48px; display: inline-flex; align-items: center; gap: 8px; padding: 8px 16px; cursor: pointer; font-weight: 700;
+  border: 2px solid var(--ink); border-radius: 8px; background: var(--paper); list-style: none;
+}
+.filters summary::-webkit-details-marker { display: none; }
+.filters summary::before { content: "▸"; }
+.filters details[open] > summary::before { content: "▾"; }
+.filters summary:focus-visible { outline: 3px solid var(--focus); outline-offset: 2px; }
 .timeline { margin: 8px 0; }
 .timeline-svg { width: 100%; height: auto; display: block; color: var(--ink); }
 .tl-label { font-size: 13px; fill: currentColor; }

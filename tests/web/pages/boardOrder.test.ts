@@ -26,7 +26,7 @@ describe('board order', () => {
       loop('open', { state: 'open', sinceMs: 20 }),
       loop('offline', { state: 'offline', sinceMs: 10 }),
       loop('tripped', { state: 'tripped' }),
-      loop('latched', { state: 'healthy', alarm: { id: 1, condition: 'tripped', priority: 'alarm', state: 'returned-unacknowledged' } }),
+      loop('latched', { state: 'healthy', alarm: { id: 1, condition: 'tripped', priority: 'alarm', state: 'returned-unacknowledged', active: false } }),
       loop('flappy', { intermittent: true }),
       loop('unknown', { state: 'unknown', sinceMs: 30 }),
       loop('parked', { state: 'tripped', inService: false }),
