@@ -1,9 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { currentLoopState, initialLoopClassifier, lastPulseUs } from '../../src/classify/loopClassifierState.js';
-import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/loopSettings.js';
-import type { LoopInput } from '../../src/classify/loopTypes.js';
-import { stepLoop } from '../../src/classify/stepLoop.js';
-import { takeQuality } from '../../src/classify/takeQuality.js';
+import { currentLoopState, DEFAULT_LOOP_SETTINGS, initialLoopClassifier, lastPulseUs } from '../../src/classify/loopClassifierState.js';
+import { stepLoop, type LoopInput } from '../../src/classify/loopClassifier.js';
+import { takeQuality } from '../../src/classify/lineQuality.js';
 import {
   changes, classify, edge, heartbeat, lost, pulseAt, pulseEffects, pulsesAt, seededRandom, tick, timeOf, us, withTicks,
 } from './loopScript.js';
