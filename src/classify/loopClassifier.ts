@@ -1,5 +1,6 @@
 import { isBand, type Band } from '../model/band.js';
 import { isFaultState, type LoopState } from '../model/loopState.js';
+import type { LineQuality } from './lineQuality.js';
 import { copyLoopState, loopWindowsOf, type LoopClassifierState, type LoopSettings, type LoopWindows } from './loopClassifierState.js';
 
 /*
@@ -62,8 +63,9 @@ import { copyLoopState, loopWindowsOf, type LoopClassifierState, type LoopSettin
  * back to N ends the span in endHighSpan: a heartbeat (acceptPulse restarts the trip window and counts
  * the interval), a glitch or long pulse (counted; a trip deadline that ran out during it then stands).
  *
- * Shape: stepLoop copies the caller's state once (copyLoopState), the private helpers below update that
- * copy in place through one LoopRun, and the copy is handed back. Effects are sorted by time at the end,
+ * Shape: stepLoop copies the caller's state once (copyLoopState; the line-quality counters only when the
+ * step first changes one, see ownQuality), the private helpers below update that copy in place through
+ * one LoopRun, and the copy is handed back. Effects are sorted by time at the end,
  * because a window that expired earlier than the input that revealed it is dated when it expired.
  */
 
@@ -101,8 +103,9 @@ export function stepLoop(
   input: LoopInput,
   settings: LoopSettings,
 ): { state: LoopClassifierState; effects: LoopEffect[] } {
-  // faultEntriesUs is replaced, never mutated, so sharing it with the caller's state is safe.
-  const run: LoopRun = { s: copyLoopState(state), w: loopWindowsOf(settings), effects: [] };
+  // faultEntriesUs is replaced, never mutated, and quality is copied before its first change
+  // (ownQuality), so sharing either with the caller's state is safe.
+  const run: LoopRun = { s: copyLoopState(state), w: loopWindowsOf(settings), effects: [], qualityOwned: false };
   applyInput(run, input);
   // Array.prototype.sort is stable, so effects dated alike keep the order they happened in.
   if (run.effects.length > 1) run.effects.sort((a, b) => a.atUs - b.atUs);
@@ -135,6 +138,17 @@ interface LoopRun {
   s: LoopClassifierState;
   w: LoopWindows;
   effects: LoopEffect[];
+  /** `s.quality` is this step's own copy. Most steps (a TICK on a quiet line) count nothing, so they never copy it. */
+  qualityOwned: boolean;
+}
+
+/** The line-quality counters, safe to change: copied from the caller's state on the step's first change. */
+function ownQuality(run: LoopRun): LineQuality {
+  if (!run.qualityOwned) {
+    run.s.quality = { ...run.s.quality };
+    run.qualityOwned = true;
+  }
+  return run.s.quality;
 }
 
 // ── private: the inputs, one case each ───────────────────────────────────────────────────────────
@@ -152,7 +166,7 @@ function applyInput(run: LoopRun, input: LoopInput): void {
     case 'lost': {
       const count = Number.isFinite(input.count) ? Math.max(0, Math.floor(input.count)) : 0;
       if (count === 0) return;
-      s.quality.lostFrames += count;
+      ownQuality(run).lostFrames += count;
       s.spanTimed = false;
       s.highMayBePulse = false;
       s.lostSinceSeen = true;
@@ -342,8 +356,8 @@ function endHighSpan(run: LoopRun, endUs: number, next: Band, viaEdge: boolean):
   if (wholeSpanSeen) {
     // Not a heartbeat. Spans too short for a long pulse count as glitches, including heartbeat-width
     // spans that did not start and end in N (noise riding an open or shorted line).
-    if (widthUs > w.pulseMaxUs) s.quality.longPulses += 1;
-    else s.quality.glitches += 1;
+    if (widthUs > w.pulseMaxUs) ownQuality(run).longPulses += 1;
+    else ownQuality(run).glitches += 1;
   } else if (next === 'N') {
     judgeHiddenHigh(run, startUs, endUs, viaEdge);
   }
@@ -426,7 +440,7 @@ function endMissedSpan(run: LoopRun, atUs: number, viaEdge: boolean): void {
  */
 function acceptPulse(run: LoopRun, startUs: number, endUs: number): void {
   const { s, w } = run;
-  const q = s.quality;
+  const q = ownQuality(run);
   const intervalUs = s.previousPulseUs === null ? null : startUs - s.previousPulseUs;
   q.pulses += 1;
   let inRhythm = false;

@@ -107,10 +107,11 @@ export function isIntermittent(state: LoopClassifierState): boolean {
 /**
  * A field-by-field copy for one step to work on. Written out rather than spread: the literal keeps one
  * object shape for V8, and copying is the classifier's hottest line (every loop, every TICK). A field
- * added to the interface and forgotten here is a compile error, since none is optional.
+ * added to the interface and forgotten here is a compile error, since none is optional. `quality` is
+ * shared, not copied: the step copies it before it first changes a counter (ownQuality in
+ * loopClassifier.ts), which most TICKs never do.
  */
 export function copyLoopState(s: LoopClassifierState): LoopClassifierState {
-  const q = s.quality;
   return {
     state: s.state,
     sinceUs: s.sinceUs,
@@ -131,16 +132,7 @@ export function copyLoopState(s: LoopClassifierState): LoopClassifierState {
     faultEntriesUs: s.faultEntriesUs,
     intermittent: s.intermittent,
     awaitingSpeech: s.awaitingSpeech,
-    quality: {
-      pulses: q.pulses,
-      intervalCount: q.intervalCount,
-      intervalSumMs: q.intervalSumMs,
-      intervalSqSumMs: q.intervalSqSumMs,
-      outOfTolerance: q.outOfTolerance,
-      glitches: q.glitches,
-      longPulses: q.longPulses,
-      lostFrames: q.lostFrames,
-    },
+    quality: s.quality,
   };
 }
 

@@ -288,4 +288,21 @@ describe('stepLoop: purity', () => {
     expect(start).toEqual(snapshot);
     expect(initialLoopClassifier()).toEqual(initialLoopClassifier());
   });
+
+  it('never changes the line-quality counters of the state it was given, whichever counter a step bumps', () => {
+    // Mid-pulse: the EDGE back to N books a valid pulse (1 ms), a glitch (0.1 ms) or a long pulse (50 ms).
+    const midPulse = classify([edge('N', 0), ...heartbeat(100, 3), edge('H', 1600)]).state;
+    const snapshot = structuredClone(midPulse);
+    const steps = [edge('N', 1601), edge('N', 1600.1), edge('N', 1650)].map((input) => stepLoop(midPulse, input, DEFAULT_LOOP_SETTINGS));
+    expect(midPulse).toEqual(snapshot);
+    expect(steps.map((step) => takeQuality(step.state).quality)).toMatchObject([
+      { pulses: 4, glitches: 0, longPulses: 0 },
+      { pulses: 3, glitches: 1, longPulses: 0 },
+      { pulses: 3, glitches: 0, longPulses: 1 },
+    ]);
+    // A quiet TICK changes no counter; its state must still be its own to change later.
+    const quiet = stepLoop(snapshot, tick('H', 1600.5), DEFAULT_LOOP_SETTINGS).state;
+    stepLoop(quiet, edge('N', 1601), DEFAULT_LOOP_SETTINGS);
+    expect(snapshot).toEqual(structuredClone(midPulse));
+  });
 });
