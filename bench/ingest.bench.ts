@@ -1,4 +1,4 @@
-import { loopSettingsFromConfig } from '../src/classify/loopSettings.js';
+import { loopSettingsFromConfig } from '../src/classify/index.js';
 import type { SiteConfig } from '../src/config/schema.js';
 import { parseLine } from '../src/protocol/parseLine.js';
 import { indexSite, initialSiteState, stepSite } from '../src/site/siteStep.js';

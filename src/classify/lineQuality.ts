@@ -1,4 +1,26 @@
-import type { LineQuality } from './loopTypes.js';
+import type { LoopClassifierState } from './loopClassifierState.js';
+
+/**
+ * Line quality: the counters one loop's classifier keeps between the shell's per-minute takes, and the
+ * figures (mean interval, jitter) worked out from them.
+ *
+ * Intervals are measured pulse start to pulse start between valid pulses; an interval across frames
+ * lost that could have hidden a pulse (two or more lost while the loop sat at N, or any while it was
+ * away from N), an EDGE missed on this loop, a decoder restart or a fault state is not measured at all.
+ * Every measured interval feeds the sums (mean and jitter, see intervalFigures); `outOfTolerance`
+ * counts those outside the ratios.
+ */
+export interface LineQuality {
+  /** Valid heartbeat pulses. */
+  pulses: number;
+  intervalCount: number;
+  intervalSumMs: number;
+  intervalSqSumMs: number;
+  outOfTolerance: number;
+  glitches: number;
+  longPulses: number;
+  lostFrames: number;
+}
 
 export function emptyLineQuality(): LineQuality {
   return {
@@ -11,6 +33,11 @@ export function emptyLineQuality(): LineQuality {
     longPulses: 0,
     lostFrames: 0,
   };
+}
+
+/** Hands the line-quality counters to the shell (once a minute) and starts fresh ones. */
+export function takeQuality(state: LoopClassifierState): { state: LoopClassifierState; quality: LineQuality } {
+  return { state: { ...state, quality: emptyLineQuality() }, quality: { ...state.quality } };
 }
 
 /** Mean and standard deviation (jitter) of the intervals the counters cover; null without intervals. */

@@ -1,6 +1,5 @@
 import { parseArgs } from 'node:util';
-import { currentLoopState, intervalFigures, lastPulseUs, takeQuality } from '../classify/index.js';
-import { DEFAULT_LOOP_SETTINGS } from '../classify/loopSettings.js';
+import { currentLoopState, DEFAULT_LOOP_SETTINGS, intervalFigures, lastPulseUs, takeQuality } from '../classify/index.js';
 import { createDecoderLink } from '../ingest/createDecoderLink.js';
 import type { Band } from '../model/band.js';
 import { indexSite, initialSiteState, stepSite } from '../site/siteStep.js';

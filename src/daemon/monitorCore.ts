@@ -3,8 +3,7 @@ import { initialAlarmBook, nextWakeAt, openAlarms, stepAlarms, type AlarmBook } 
 import type { AlarmContext, AlarmInput, AlarmStepResult } from '../alarms/alarmInput.js';
 import type { AlarmEffect, AlarmRecord } from '../alarms/alarmTypes.js';
 import { policiesFromConfig } from '../alarms/escalationPolicy.js';
-import { emptyLineQuality, type LineQuality } from '../classify/index.js';
-import { loopSettingsFromConfig } from '../classify/loopSettings.js';
+import { emptyLineQuality, loopSettingsFromConfig, type LineQuality } from '../classify/index.js';
 import type { SiteConfig } from '../config/schema.js';
 import type { Condition } from '../model/condition.js';
 import type { LoopState } from '../model/loopState.js';

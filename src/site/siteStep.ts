@@ -1,5 +1,4 @@
-import { initialLoopClassifier, stepLoop, takeQuality, type LoopClassifierState } from '../classify/index.js';
-import type { LoopInput } from '../classify/loopTypes.js';
+import { initialLoopClassifier, stepLoop, takeQuality, type LoopClassifierState, type LoopInput } from '../classify/index.js';
 import type { LoopState } from '../model/loopState.js';
 import { initialDecoderSession, rebaseDecoderClock, stepDecoderSession } from '../protocol/decoderSession.js';
 import type { DecoderRuntime, SiteEffect, SiteInput, SiteLoop, SiteQuality, SiteState, TripHold } from './siteTypes.js';

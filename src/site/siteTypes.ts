@@ -1,6 +1,4 @@
-import type { LineQuality, LoopEffect } from '../classify/loopTypes.js';
-import type { LoopClassifierState } from '../classify/index.js';
-import type { LoopSettings } from '../classify/loopSettings.js';
+import type { LineQuality, LoopClassifierState, LoopEffect, LoopSettings } from '../classify/index.js';
 import type { DecoderSession } from '../protocol/decoderSession.js';
 import type { DecoderEvent } from '../protocol/decoderEvent.js';
 import type { Band } from '../model/band.js';

@@ -1,11 +1,7 @@
 import type { Band } from '../../src/model/band.js';
 import type { LoopState } from '../../src/model/loopState.js';
-import { initialLoopClassifier } from '../../src/classify/loopClassifierState.js';
-import type { LoopClassifierState } from '../../src/classify/loopClassifierState.js';
-import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/loopSettings.js';
-import type { LoopSettings } from '../../src/classify/loopSettings.js';
-import type { LoopEffect, LoopInput } from '../../src/classify/loopTypes.js';
-import { stepLoopAll } from '../../src/classify/stepLoopAll.js';
+import { DEFAULT_LOOP_SETTINGS, initialLoopClassifier, type LoopClassifierState, type LoopSettings } from '../../src/classify/loopClassifierState.js';
+import { stepLoopAll, type LoopEffect, type LoopInput } from '../../src/classify/loopClassifier.js';
 
 /**
  * Test scripts for one loop, written in decoder milliseconds and turned into classifier inputs in

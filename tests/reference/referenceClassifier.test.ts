@@ -1,6 +1,6 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { DEFAULT_LOOP_SETTINGS, type LoopSettings } from '../../src/classify/loopSettings.js';
+import { DEFAULT_LOOP_SETTINGS, type LoopSettings } from '../../src/classify/index.js';
 import { encodeLine } from '../../src/protocol/encodeLine.js';
 import { indexSite, initialSiteState, stepSite } from '../../src/site/siteStep.js';
 import { referenceClassify, type RefBand, type RefEvent, type RefFrame } from './referenceClassifier.js';

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/loopSettings.js';
+import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/loopClassifierState.js';
 import { changes, classify, edge, tick, us } from './loopScript.js';
 
 /**

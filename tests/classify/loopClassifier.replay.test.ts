@@ -1,10 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { initialLoopClassifier } from '../../src/classify/loopClassifierState.js';
-import type { LoopClassifierState } from '../../src/classify/loopClassifierState.js';
-import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/loopSettings.js';
-import type { LoopEffect, LoopInput } from '../../src/classify/loopTypes.js';
-import { stepLoop } from '../../src/classify/stepLoop.js';
-import { stepLoopAll } from '../../src/classify/stepLoopAll.js';
+import { DEFAULT_LOOP_SETTINGS, initialLoopClassifier, type LoopClassifierState } from '../../src/classify/loopClassifierState.js';
+import { stepLoop, stepLoopAll, type LoopEffect, type LoopInput } from '../../src/classify/loopClassifier.js';
 import { edge, heartbeat, lost, pulseAt, tick, withTicks } from './loopScript.js';
 
 /*

@@ -3,13 +3,9 @@ import { describe, expect, it } from 'vitest';
 import type { Band } from '../../src/model/band.js';
 import { LOOP_STATES } from '../../src/model/loopState.js';
 import type { LoopState } from '../../src/model/loopState.js';
-import { currentLoopState, initialLoopClassifier } from '../../src/classify/loopClassifierState.js';
-import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/loopSettings.js';
-import type { LoopSettings } from '../../src/classify/loopSettings.js';
-import type { LoopEffect, LoopInput } from '../../src/classify/loopTypes.js';
-import { stepLoop } from '../../src/classify/stepLoop.js';
-import { stepLoopAll } from '../../src/classify/stepLoopAll.js';
-import { takeQuality } from '../../src/classify/takeQuality.js';
+import { currentLoopState, DEFAULT_LOOP_SETTINGS, initialLoopClassifier, type LoopSettings } from '../../src/classify/loopClassifierState.js';
+import { stepLoop, stepLoopAll, type LoopEffect, type LoopInput } from '../../src/classify/loopClassifier.js';
+import { takeQuality } from '../../src/classify/lineQuality.js';
 
 const bandArb = fc.constantFrom<Band>('O', 'N', 'H');
 // Gaps from sub-pulse widths to several trip windows, so every window gets hit and straddled.

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { loopTimingSchema } from '../../src/config/schema.js';
-import { DEFAULT_LOOP_SETTINGS, loopSettingsFromConfig } from '../../src/classify/loopSettings.js';
+import { DEFAULT_LOOP_SETTINGS, loopSettingsFromConfig } from '../../src/classify/loopClassifierState.js';
 
 describe('loop settings', () => {
   it('defaults to the numbers of the specification (issue 2, "Loop classification")', () => {

@@ -1,9 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { currentLoopState, initialLoopClassifier, lastPulseUs } from '../../src/classify/loopClassifierState.js';
-import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/loopSettings.js';
-import type { LoopInput } from '../../src/classify/loopTypes.js';
-import { stepLoop } from '../../src/classify/stepLoop.js';
-import { takeQuality } from '../../src/classify/takeQuality.js';
+import { currentLoopState, DEFAULT_LOOP_SETTINGS, initialLoopClassifier, lastPulseUs } from '../../src/classify/loopClassifierState.js';
+import { stepLoop, type LoopInput } from '../../src/classify/loopClassifier.js';
+import { takeQuality } from '../../src/classify/lineQuality.js';
 import {
   changes, classify, edge, heartbeat, lost, pulseAt, pulseEffects, pulsesAt, seededRandom, tick, timeOf, us, withTicks,
 } from './loopScript.js';
@@ -289,5 +287,22 @@ describe('stepLoop: purity', () => {
     stepLoop(start, lost(4, 1300), DEFAULT_LOOP_SETTINGS);
     expect(start).toEqual(snapshot);
     expect(initialLoopClassifier()).toEqual(initialLoopClassifier());
+  });
+
+  it('never changes the line-quality counters of the state it was given, whichever counter a step bumps', () => {
+    // Mid-pulse: the EDGE back to N books a valid pulse (1 ms), a glitch (0.1 ms) or a long pulse (50 ms).
+    const midPulse = classify([edge('N', 0), ...heartbeat(100, 3), edge('H', 1600)]).state;
+    const snapshot = structuredClone(midPulse);
+    const steps = [edge('N', 1601), edge('N', 1600.1), edge('N', 1650)].map((input) => stepLoop(midPulse, input, DEFAULT_LOOP_SETTINGS));
+    expect(midPulse).toEqual(snapshot);
+    expect(steps.map((step) => takeQuality(step.state).quality)).toMatchObject([
+      { pulses: 4, glitches: 0, longPulses: 0 },
+      { pulses: 3, glitches: 1, longPulses: 0 },
+      { pulses: 3, glitches: 0, longPulses: 1 },
+    ]);
+    // A quiet TICK changes no counter; its state must still be its own to change later.
+    const quiet = stepLoop(snapshot, tick('H', 1600.5), DEFAULT_LOOP_SETTINGS).state;
+    stepLoop(quiet, edge('N', 1601), DEFAULT_LOOP_SETTINGS);
+    expect(snapshot).toEqual(structuredClone(midPulse));
   });
 });

@@ -1,8 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { intervalFigures } from '../../src/classify/lineQuality.js';
-import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/loopSettings.js';
-import type { LoopSettings } from '../../src/classify/loopSettings.js';
-import { takeQuality } from '../../src/classify/takeQuality.js';
+import { intervalFigures, takeQuality } from '../../src/classify/lineQuality.js';
+import { DEFAULT_LOOP_SETTINGS, type LoopSettings } from '../../src/classify/loopClassifierState.js';
 import { changes, classify, edge, heartbeat, pulseAt, pulsesAt, us, withTicks } from './loopScript.js';
 
 /* Check values from outside the code: facts of the trade, a datasheet formula, a code requirement. */

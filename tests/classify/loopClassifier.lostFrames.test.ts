@@ -1,11 +1,9 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import type { Band } from '../../src/model/band.js';
-import { initialLoopClassifier, lastPulseUs } from '../../src/classify/loopClassifierState.js';
-import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/loopSettings.js';
-import type { LoopEffect, LoopInput } from '../../src/classify/loopTypes.js';
-import { stepLoop } from '../../src/classify/stepLoop.js';
-import { takeQuality } from '../../src/classify/takeQuality.js';
+import { DEFAULT_LOOP_SETTINGS, initialLoopClassifier, lastPulseUs } from '../../src/classify/loopClassifierState.js';
+import { stepLoop, type LoopEffect, type LoopInput } from '../../src/classify/loopClassifier.js';
+import { takeQuality } from '../../src/classify/lineQuality.js';
 import { changes, classify, edge, heartbeat, lost, pulseAt, pulseEffects, seededRandom, tick, us, withTicks } from './loopScript.js';
 
 /*
@@ -13,7 +11,7 @@ import { changes, classify, edge, heartbeat, lost, pulseAt, pulseEffects, seeded
  * of issue 2 ("Loop classification": heartbeat every 500 ms, pulse 0.2–20 ms, short/open after 200 ms,
  * trip after 1500 ms without a valid pulse) and from the scripts' own times. The one number that is the
  * classifier's own choice, not the specification's, is the benefit of the doubt for pulses lost frames
- * may have hidden: at most half a period (250 ms), documented in src/classify/loopWindows.ts.
+ * may have hidden: at most half a period (250 ms), documented in src/classify/loopClassifierState.ts (LoopWindows).
  */
 
 const ticksN = (fromMs: number, toMs: number, everyMs = 250): LoopInput[] =>

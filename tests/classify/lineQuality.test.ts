@@ -1,6 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { intervalFigures } from '../../src/classify/lineQuality.js';
-import { takeQuality } from '../../src/classify/takeQuality.js';
+import { intervalFigures, takeQuality } from '../../src/classify/lineQuality.js';
 import { classify, edge, lost, pulseAt, pulsesAt } from './loopScript.js';
 
 describe('takeQuality', () => {
