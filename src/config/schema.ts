@@ -83,6 +83,8 @@ const contactSchema = z.strictObject({
   id,
   name: z.string().min(1).max(80),
   email: z.email('must be an email address'),
+  /** Web user name this contact signs in as; a mail reply may shelve only when that user is an operator or admin. */
+  user: z.string().min(1).max(80).optional(),
 });
 
 const stepSchema = z.strictObject({
@@ -109,6 +111,21 @@ const smtpSchema = z.strictObject({
   timeout: duration.default(20_000),
 });
 
+/** The mailbox that receives replies to alarm mail; its presence turns on acknowledging by reply. */
+const imapSchema = z.strictObject({
+  host: z.string().min(1),
+  /** 993 is IMAP over TLS from the first byte (RFC 8314 §3.3). */
+  port: z.number().int().min(1).max(65535).default(993),
+  secure: z.boolean().default(true),
+  user: z.string().min(1),
+  pass_env: z.string().regex(/^[A-Z_][A-Z0-9_]*$/, 'must be an environment variable name'),
+  folder: z.string().min(1).default('INBOX'),
+  /** Handled replies are moved here; without it they are only marked as read. */
+  done_folder: z.string().min(1).optional(),
+  /** Refuse replies whose DKIM signature does not verify (RFC 6376). */
+  require_dkim: z.boolean().default(false),
+});
+
 const mailSchema = z
   .strictObject({
     from: z.string().min(3),
@@ -120,6 +137,7 @@ const mailSchema = z
     retry_max: duration.default(900_000),
     /** Consecutive failed attempts before "mail failing" is raised. */
     failing_after: z.number().int().min(1).default(3),
+    imap: imapSchema.optional(),
   })
   .prefault({ from: "pairwatch <pairwatch@localhost>" });
 
@@ -182,4 +200,5 @@ export type LoopConfig = SiteConfig['loops'][number];
 export type ContactConfig = SiteConfig['contacts'][number];
 export type EscalationPolicyConfig = SiteConfig['escalation'][string];
 export type MailConfig = SiteConfig['mail'];
+export type ImapConfig = NonNullable<MailConfig['imap']>;
 export type WebConfig = SiteConfig['web'];

@@ -1,6 +1,7 @@
 import type { NoticeKind } from '../alarms/alarmTypes.js';
 import { CONDITION_TEXT, PRIORITY_RANK, type Condition, type Priority } from '../model/condition.js';
 import { signAckToken } from './ackToken.js';
+import { signReplyToken } from './replyToken.js';
 import { escapeHtml } from './escapeHtml.js';
 import { formatElapsed, formatSiteAndUtc } from './formatSiteTime.js';
 import { mailFooterHtml, mailFooterText, mailPageHtml, PRIORITY_HEADING, PRIORITY_TAG } from './mailLayout.js';
@@ -30,6 +31,7 @@ export const CONDITION_SHORT = {
 } as const satisfies Record<Condition, string>;
 
 const SUBJECT_MAX = 160;
+export const REPLY_HINT = 'Reply with OK to acknowledge (you may add a note).';
 const STATES_WITH_ACK_LINK = new Set(['unacknowledged', 'returned-unacknowledged']);
 
 interface Entry {
@@ -244,10 +246,23 @@ export function composeNoticeMail(digest: Digest, ctx: NoticeComposeContext): Ou
       htmlParts.push(htmlBlock(facts));
     }
   }
-  textParts.push(mailFooterText(ctx.siteName, ctx.publicUrl));
-  htmlParts.push(mailFooterHtml(ctx.siteName, ctx.publicUrl));
+  // --- reply to acknowledge (mail.imap) ---
+  const messageId = ctx.newMessageId();
+  const reply = ctx.reply && entries.some((e) => e.alarm && STATES_WITH_ACK_LINK.has(e.alarm.state)) ? ctx.reply : null;
+  let replySubject = subject;
+  if (reply) {
+    // The token rides in the subject as well as the body, so a reply whose client trims the quote still carries it.
+    const token = signReplyToken({ messageId, recipient: contact.id, expiresAt: ctx.now + reply.ttlMs }, reply.secret);
+    replySubject = `${subject} [ref ${token}]`;
+    textParts.push(REPLY_HINT, `Reference: ${token}`, '');
+    htmlParts.push(`<p><strong>${escapeHtml(REPLY_HINT)}</strong><br><small>Reference: ${token}</small></p>`);
+  }
+  // --- end reply to acknowledge ---
+  textParts.push(mailFooterText(ctx.siteName, ctx.publicUrl, !!ctx.reply));
+  htmlParts.push(mailFooterHtml(ctx.siteName, ctx.publicUrl, !!ctx.reply));
 
   const headers: Record<string, string> = { 'Auto-Submitted': 'auto-generated' };
+  if (reply) headers['Reply-To'] = reply.address;
   const threads = [...new Set(entries.map((e) => e.alarm?.threadMessageId).filter((id): id is string => !!id))];
   if (threads.length > 0) {
     // RFC 5322 §3.6.4: In-Reply-To names the parent(s); References carries the thread. The parent is
@@ -256,12 +271,12 @@ export function composeNoticeMail(digest: Digest, ctx: NoticeComposeContext): Ou
     headers['References'] = threads.join(' ');
   }
   return {
-    messageId: ctx.newMessageId(),
+    messageId,
     kind: 'notice',
     priority: top,
     from: ctx.from,
     to: [mailbox(contact)],
-    subject,
+    subject: replySubject,
     text: textParts.join('\n'),
     html: mailPageHtml(subject, htmlParts.join('\n')),
     headers,
