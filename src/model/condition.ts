@@ -15,6 +15,7 @@ export const CONDITIONS = [
   'decoder-fault',
   'mail-failing',
   'storage-failing',
+  'inbox-failing',
 ] as const;
 export type Condition = (typeof CONDITIONS)[number];
 
@@ -28,6 +29,7 @@ export const CONDITION_PRIORITY = {
   'decoder-fault': 'trouble',
   'mail-failing': 'system',
   'storage-failing': 'system',
+  'inbox-failing': 'system',
 } as const satisfies Record<Condition, Priority>;
 
 /** Sort key: alarms first, then trouble, then system. */
@@ -70,5 +72,9 @@ export const CONDITION_TEXT = {
   'storage-failing': {
     words: 'storage failing: the monitor cannot write its database',
     check: 'Check free disk space and the data folder permissions; run `pairwatch doctor`.',
+  },
+  'inbox-failing': {
+    words: 'reply inbox failing: the monitor cannot read the mailbox that replies to alarm mail go to, so a reply cannot acknowledge',
+    check: 'Check mail.imap (host, user, the app password in pass_env) and run `pairwatch doctor`; acknowledge on the board meanwhile.',
   },
 } as const satisfies Record<Condition, { words: string; check: string }>;

@@ -28,6 +28,7 @@ export const CONDITION_SHORT = {
   'decoder-fault': 'decoder fault',
   'mail-failing': 'mail failing',
   'storage-failing': 'storage failing',
+  'inbox-failing': 'reply inbox failing',
 } as const satisfies Record<Condition, string>;
 
 const SUBJECT_MAX = 160;
