@@ -1,3 +1,6 @@
+import { chmodSync, mkdtempSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { describeLinkError } from '../../src/ingest/describeLinkError.js';
 import { listSerialPorts } from '../../src/ingest/listSerialPorts.js';
@@ -10,7 +13,11 @@ describe('listSerialPorts', () => {
   });
 
   it('turns a failing listing into a reason', async () => {
-    const result = await listSerialPorts({ platform: 'linux', searchPath: '/usr/bin:/bin', list: () => Promise.reject(new Error('udevadm exited with 1')) });
+    // A folder of our own holding an executable udevadm, so the case does not depend on this machine having udev.
+    const bin = mkdtempSync(join(tmpdir(), 'pw-udevadm-'));
+    writeFileSync(join(bin, 'udevadm'), '#!/bin/sh\nexit 1\n');
+    chmodSync(join(bin, 'udevadm'), 0o755);
+    const result = await listSerialPorts({ platform: 'linux', searchPath: bin, list: () => Promise.reject(new Error('udevadm exited with 1')) });
     expect(result).toEqual({ ok: false, reason: 'cannot list serial ports: udevadm exited with 1' });
   });
 
