@@ -4,6 +4,8 @@ export default defineConfig({
   test: {
     include: ['tests/**/*.test.ts'],
     environment: 'node',
+    // Lists tests skipped because the machine forbids mount/chattr at the end of the run (tests/helpers/machineSkip.ts).
+    globalSetup: ['tests/helpers/machineSkipSummary.ts'],
     // Real SQLite files, pseudo-terminals and SMTP servers: keep parallelism modest on a 2-core box.
     pool: 'forks',
     maxWorkers: 2,

@@ -30,7 +30,7 @@ export interface BenchOptions {
   smoke: boolean;
 }
 
-export const BENCH_NAMES = ['ingest', 'store', 'detection', 'alarm-to-mail', 'api', 'soak'] as const;
+export const BENCH_NAMES = ['ingest', 'store', 'detection', 'alarm-to-mail', 'api', 'soak', 'estate', 'firmware'] as const;
 export type BenchName = (typeof BENCH_NAMES)[number];
 
 export type BenchScenario = (opts: BenchOptions) => Promise<BenchResult>;
@@ -51,5 +51,23 @@ export function ceilingRow(figure: string, valueMs: number, ceilingMs: number, c
     ratio: valueMs / ceilingMs,
     target: `≤ ${ceilingMs} ms`,
     met: complete && valueMs <= ceilingMs,
+  };
+}
+
+/**
+ * A figure as a fraction of a ceiling measured in the same run (higher is better), judged against
+ * a goal ratio such as 0.5× — or shown for information when `goal` is null.
+ */
+export function shareRow(figure: string, value: number, unit: string, ceiling: string, ceilingValue: number, goal: number | null): BenchRow {
+  const ratio = ceilingValue > 0 ? value / ceilingValue : null;
+  return {
+    figure,
+    value,
+    unit,
+    reference: ceiling,
+    referenceValue: ceilingValue,
+    ratio,
+    target: goal === null ? null : `≥ ${goal}×`,
+    met: goal === null ? null : ratio !== null && ratio >= goal,
   };
 }

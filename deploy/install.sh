@@ -258,9 +258,11 @@ cat <<EOF
 Next:
   1. pairwatch ports          find the decoder; paste its rule line into $RULES_PATH
   2. edit $ETC_DIR/site.yaml   decoders, loops, contacts, mail; secrets go in $ETC_DIR/env
-  3. sudo -u $SERVICE_USER pairwatch doctor --config $ETC_DIR/site.yaml
-  4. sudo systemctl restart pairwatch; watch it with: journalctl -u pairwatch -f
-  5. test the whole chain, node to phone, now and each autumn; the daily report proves it is alive.
+  3. sudo -u $SERVICE_USER pairwatch check-config $ETC_DIR/site.yaml
+  4. sudo -u $SERVICE_USER pairwatch user add YOUR-NAME --role admin --config $ETC_DIR/site.yaml   (someone to sign in as)
+  5. sudo -u $SERVICE_USER pairwatch doctor --config $ETC_DIR/site.yaml
+  6. sudo systemctl restart pairwatch; watch it with: journalctl -u pairwatch -f
+  7. test the whole chain, node to phone, now and each autumn; the daily report proves it is alive.
 pairwatch is property monitoring, not a life-safety system. Keep loops low-voltage and apart from
 mains wiring; runs between buildings need surge protection and attention to earthing, and mains-side
 work is for a licensed electrician under local codes.

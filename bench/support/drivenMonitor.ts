@@ -28,7 +28,7 @@ const MINUTE_MS = 60_000;
 export function openDrivenMonitor(config: SiteConfig, startMs: number): DrivenMonitor {
   let clock = startMs;
   let failures = 0;
-  const store = openStore({ path: config.storage.path });
+  const store = openStore({ path: config.storage.path, cacheKib: config.storage.cache_kib });
   const writer = createDurableWriter({
     store,
     now: () => clock,

@@ -55,18 +55,24 @@ export function initialLoopClassifier(): LoopClassifierState {
     lastHeardUs: null,
     band: null,
     bandSinceUs: null,
+    // Stryker disable next-line BooleanLiteral: the first band input begins a span, which sets all three span flags before any is read
     highMayBePulse: false,
+    // Stryker disable next-line BooleanLiteral: as above
     spanTimed: false,
+    // Stryker disable next-line BooleanLiteral: as above
     spanStartKnown: false,
     spanFrom: null,
     tripFromUs: null,
     hiddenPulseUs: null,
+    // Stryker disable next-line BooleanLiteral: read only once a band is known, and the first band input clears it
     lostSinceSeen: false,
     lastPulseUs: null,
     previousPulseUs: null,
     pulsesInRhythm: 0,
+    // Stryker disable next-line ArrayDeclaration: a non-number entry fails the window filter at the first fault entry
     faultEntriesUs: [],
     intermittent: false,
+    // Stryker disable next-line BooleanLiteral: starting over from the initial state is the initial state
     awaitingSpeech: false,
     quality: emptyLineQuality(),
   };

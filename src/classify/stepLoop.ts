@@ -7,7 +7,7 @@ import { breakRhythm, enterState, startRun } from './loopRun.js';
 import type { LoopRun } from './loopRun.js';
 import type { LoopSettings } from './loopSettings.js';
 import type { LoopEffect, LoopInput } from './loopTypes.js';
-import { loopWindows } from './loopWindows.js';
+import { loopWindows, type LoopWindows } from './loopWindows.js';
 import { noteHiddenPulse } from './noteHiddenPulse.js';
 import { stateReason } from './stateReason.js';
 
@@ -22,11 +22,27 @@ export function stepLoop(
   input: LoopInput,
   settings: LoopSettings,
 ): { state: LoopClassifierState; effects: LoopEffect[] } {
-  const run = startRun(state, loopWindows(settings));
+  const run = startRun(state, windowsOf(settings));
   applyInput(run, input);
   // Array.prototype.sort is stable, so effects dated alike keep the order they happened in.
   if (run.effects.length > 1) run.effects.sort((a, b) => a.atUs - b.atUs);
   return { state: run.s, effects: run.effects };
+}
+
+/**
+ * The windows of one settings object, worked out on its first step and kept: a TICK steps every loop,
+ * and converting the settings anew each time was an allocation per loop per frame. Settings are
+ * treated as immutable (they come from the config once), so the cache key is the object itself.
+ */
+const windowsCache = new WeakMap<LoopSettings, LoopWindows>();
+
+function windowsOf(settings: LoopSettings): LoopWindows {
+  let w = windowsCache.get(settings);
+  if (w === undefined) {
+    w = loopWindows(settings);
+    windowsCache.set(settings, w);
+  }
+  return w;
 }
 
 function applyInput(run: LoopRun, input: LoopInput): void {

@@ -3,7 +3,8 @@ import { z } from 'zod';
 import { ConfigError } from '../config/configError.js';
 import { loadConfig } from '../config/loadConfig.js';
 import type { SiteConfig } from '../config/schema.js';
-import type { CliCommand, CliIo } from './cliTypes.js';
+import type { CliIo } from './cliTypes.js';
+import { defineCommand, UsageError } from './defineCommand.js';
 import { dropFolderFor } from '../notify/dropFolder.js';
 import { formatSiteAndUtc } from '../notify/formatSiteTime.js';
 import { mailFooterText, mailPageHtml } from '../notify/mailLayout.js';
@@ -14,7 +15,10 @@ import { NotifyError } from '../notify/notifyError.js';
 import type { OutboxMessage } from '../notify/outboxMessage.js';
 import { escapeHtml } from '../notify/escapeHtml.js';
 
-const USAGE = 'usage: pairwatch mail-test ADDRESS [--config FILE] [--verbose]';
+const USAGE = `usage: pairwatch mail-test ADDRESS [--config FILE] [--verbose]
+  Sends one test message through the configured SMTP server and prints its answer
+  (without mail.smtp, writes the .eml file and prints where). --verbose shows the SMTP conversation.
+`;
 const addressSchema = z.email();
 
 function testMessage(config: SiteConfig, address: string, now: number): OutboxMessage {
@@ -43,33 +47,16 @@ function say(stream: NodeJS.WritableStream, line: string): void {
 }
 
 /** `pairwatch mail-test ADDRESS --config FILE`: sends one test message and prints what the server said. */
-export const mailTestCommand: CliCommand = async (argv: string[], io: CliIo) => {
-  let parsed;
-  try {
-    parsed = parseArgs({
-      args: argv,
-      allowPositionals: true,
-      options: { config: { type: 'string', default: 'config/site.yaml' }, verbose: { type: 'boolean', default: false }, help: { type: 'boolean', short: 'h' } },
-    });
-  } catch (err) {
-    say(io.stderr, `mail-test: ${(err as Error).message}`);
-    say(io.stderr, USAGE);
-    return 2;
-  }
-  if (parsed.values.help) {
-    say(io.stdout, USAGE);
-    return 0;
-  }
+export const mailTestCommand = defineCommand({ name: 'mail-test', usage: USAGE, run: async (argv: string[], io: CliIo) => {
+  const parsed = parseArgs({
+    args: argv,
+    allowPositionals: true,
+    options: { config: { type: 'string', default: 'config/site.yaml' }, verbose: { type: 'boolean', default: false } },
+  });
   const [address, ...extra] = parsed.positionals;
-  if (!address || extra.length > 0) {
-    say(io.stderr, address ? `mail-test: unexpected argument "${extra[0]}"` : 'mail-test: give the address to send the test message to');
-    say(io.stderr, USAGE);
-    return 2;
-  }
-  if (!addressSchema.safeParse(address).success) {
-    say(io.stderr, `mail-test: "${address}" is not an email address`);
-    return 2;
-  }
+  if (!address) throw new UsageError('give the address to send the test message to');
+  if (extra.length > 0) throw new UsageError(`unexpected argument "${extra[0]}"`);
+  if (!addressSchema.safeParse(address).success) throw new UsageError(`"${address}" is not an email address`);
 
   let config: SiteConfig;
   try {
@@ -114,4 +101,4 @@ export const mailTestCommand: CliCommand = async (argv: string[], io: CliIo) => 
   } finally {
     transport.close();
   }
-};
+} });

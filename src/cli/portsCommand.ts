@@ -1,5 +1,6 @@
 import { parseArgs } from 'node:util';
 import type { CliCommand, CliIo } from './cliTypes.js';
+import { defineCommand } from './defineCommand.js';
 import { findOnPath } from '../ops/ports/findOnPath.js';
 import { nameFromSerial, udevRuleLine, UDEV_LINK_PREFIX } from '../ops/ports/udevRuleLine.js';
 
@@ -35,18 +36,8 @@ const defaultDeps: PortsCommandDeps = {
 const USAGE = 'usage: pairwatch ports\n  Lists serial ports and prints a udev rule line for each USB adapter.\n';
 
 export function createPortsCommand(deps: PortsCommandDeps = defaultDeps): CliCommand {
-  return async (argv, io) => {
-    let help: boolean | undefined;
-    try {
-      ({ values: { help } } = parseArgs({ args: argv, options: { help: { type: 'boolean', short: 'h' } }, strict: true, allowPositionals: false }));
-    } catch (err) {
-      io.stderr.write(`pairwatch ports: ${(err as Error).message}\n${USAGE}`);
-      return 2;
-    }
-    if (help) {
-      io.stdout.write(USAGE);
-      return 0;
-    }
+  return defineCommand({ name: 'ports', usage: USAGE, run: async (argv, io) => {
+    parseArgs({ args: argv, options: {}, strict: true, allowPositionals: false });
     // On Linux serialport reads the device list from udev's database through `udevadm`.
     if (deps.platform === 'linux' && deps.findExecutable('udevadm', io.env) === null) {
       io.stderr.write(
@@ -67,7 +58,7 @@ export function createPortsCommand(deps: PortsCommandDeps = defaultDeps): CliCom
     }
     printPorts(ports, io);
     return 0;
-  };
+  } });
 }
 
 function plainReason(err: unknown): string {

@@ -5,7 +5,8 @@ import type { Logger } from 'pino';
 import type { SiteConfig } from '../config/schema.js';
 import { createLogger } from '../daemon/createLogger.js';
 import { startMonitor, type Monitor, type StartMonitorOptions } from '../daemon/startMonitor.js';
-import type { CliCommand, CliIo } from './cliTypes.js';
+import type { CliIo } from './cliTypes.js';
+import { defineCommand } from './defineCommand.js';
 import { DEFAULT_CONFIG_PATH, loadConfigForCli } from './loadConfigForCli.js';
 
 /** The daemon exits within this long of SIGTERM, whatever is still pending (the outbox keeps it). */
@@ -54,11 +55,21 @@ export async function runMonitorUntilSignal(
   });
 }
 
+const USAGE = `usage: pairwatch run [--config FILE]
+  The monitor: reads every decoder, classifies loops, stores everything, mails, serves the pages and API.
+  Stops cleanly on SIGTERM or Ctrl-C. The installed service runs it as: pairwatch run --config /etc/pairwatch/site.yaml
+  --config FILE  the site config (default ${DEFAULT_CONFIG_PATH})
+`;
+
 /** `pairwatch run --config FILE`: the monitor daemon. */
-export const runCommand: CliCommand = async (argv, io) => {
-  const { values } = parseArgs({ args: argv, options: { config: { type: 'string', default: DEFAULT_CONFIG_PATH } } });
-  const file = values.config ?? DEFAULT_CONFIG_PATH;
-  const config = loadConfigForCli(file, io);
-  if (!config) return 2;
-  return runMonitorUntilSignal(config, file, io);
-};
+export const runCommand = defineCommand({
+  name: 'run',
+  usage: USAGE,
+  run: async (argv, io) => {
+    const { values } = parseArgs({ args: argv, options: { config: { type: 'string', default: DEFAULT_CONFIG_PATH } } });
+    const file = values.config ?? DEFAULT_CONFIG_PATH;
+    const config = loadConfigForCli(file, io);
+    if (!config) return 2;
+    return runMonitorUntilSignal(config, file, io);
+  },
+});

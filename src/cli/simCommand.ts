@@ -5,7 +5,8 @@ import { runSimulator } from '../sim/runSimulator.js';
 import { ScenarioError } from '../sim/scenarioError.js';
 import type { Scenario } from '../sim/scenarioSchema.js';
 import { serveSimulator } from '../sim/serveSimulator.js';
-import type { CliCommand, CliIo } from './cliTypes.js';
+import type { CliIo } from './cliTypes.js';
+import { defineCommand, UsageError } from './defineCommand.js';
 
 const USAGE = `usage: pairwatch sim SCENARIO [--listen tcp://127.0.0.1:PORT] [--speed N] [--duration 90s]
 
@@ -18,7 +19,7 @@ Runs a simulated line decoder from a scenario file and writes its protocol lines
 const MAX_SPEED = 100_000;
 
 /** `pairwatch sim`: the simulated decoder, for the demo, for commissioning practice and for tests. */
-export const simCommand: CliCommand = async (argv, io) => {
+export const simCommand = defineCommand({ name: 'sim', usage: USAGE, run: async (argv, io) => {
   const { values, positionals } = parseArgs({
     args: argv,
     allowPositionals: true,
@@ -26,16 +27,10 @@ export const simCommand: CliCommand = async (argv, io) => {
       listen: { type: 'string' },
       speed: { type: 'string' },
       duration: { type: 'string' },
-      help: { type: 'boolean', short: 'h' },
     },
   });
-  if (values.help) {
-    io.stdout.write(USAGE);
-    return 0;
-  }
-  const usageError = (message: string) => {
-    io.stderr.write(`pairwatch sim: ${message}\n\n${USAGE}`);
-    return 2;
+  const usageError = (message: string): never => {
+    throw new UsageError(message);
   };
   if (positionals.length !== 1) return usageError(positionals.length === 0 ? 'give a scenario file' : 'give exactly one scenario file');
 
@@ -63,7 +58,7 @@ export const simCommand: CliCommand = async (argv, io) => {
   }
 
   return listen ? serve(scenario, listen, speed, untilUs, io) : toStdout(scenario, speed, untilUs, io);
-};
+} });
 
 async function toStdout(scenario: Scenario, speed: number, untilUs: number | undefined, io: CliIo): Promise<number> {
   const run = runSimulator(scenario, {

@@ -5,28 +5,35 @@ import { USER_ROLES } from '../store/userRepo.js';
 import { accountNameProblem } from '../web/auth/accountName.js';
 import { isUserRole } from '../web/auth/roles.js';
 import { newApiToken, sha256Hex } from '../web/auth/secretToken.js';
-import type { CliCommand } from './cliTypes.js';
-import { DEFAULT_CONFIG_PATH, loadConfigForCli } from './loadConfigForCli.js';
+import { defineCommand, UsageError } from './defineCommand.js';
+import { loadAccountsConfigForCli } from './loadAccountsConfig.js';
+import { DEFAULT_CONFIG_PATH } from './loadConfigForCli.js';
 import { openStoreForAccounts } from './userCommand.js';
 
-const USAGE = `usage:
-  pairwatch token create NAME [--role viewer|operator|admin] [--config FILE]   (default role: viewer)
-  pairwatch token revoke NAME [--config FILE]
-  pairwatch token list [--config FILE]
-The token is printed once, on its own line; only its SHA-256 hash is stored.
-Send it as "Authorization: Bearer <token>".
-`;
+const NOTE = 'The token is printed once, on its own line; only its SHA-256 hash is stored.\nSend it as "Authorization: Bearer <token>".\n';
+const SUBCOMMANDS = {
+  create: `usage: pairwatch token create NAME [--role viewer|operator|admin] [--config FILE]   (default role: viewer)\n${NOTE}`,
+  revoke: 'usage: pairwatch token revoke NAME [--config FILE]\n  The token stops working at once; its name stays taken, for the audit trail.\n',
+  list: 'usage: pairwatch token list [--config FILE]\n  Lists the tokens, their roles and whether each is live or revoked.\n',
+} as const;
+const USAGE = `usage: pairwatch token create|revoke|list …
+${Object.values(SUBCOMMANDS)
+  .map((u) => `  ${u.split('\n')[0]!.replace('usage: ', '')}`)
+  .join('\n')}
+${NOTE}`;
 
 /** `pairwatch token …`: API tokens for scripts and other systems. */
-export const tokenCommand: CliCommand = async (argv, io) => {
+export const tokenCommand = defineCommand({ name: 'token', usage: USAGE, subcommands: SUBCOMMANDS, run: async (argv, io) => {
   const { values, positionals } = parseArgs({
     args: argv,
     allowPositionals: true,
     options: { config: { type: 'string', default: DEFAULT_CONFIG_PATH }, role: { type: 'string' } },
   });
   const [action, name, ...extra] = positionals;
-  if (!action || !['create', 'revoke', 'list'].includes(action) || extra.length > 0 || (action !== 'list' && !name)) {
-    io.stderr.write(USAGE);
+  if (!action) throw new UsageError('give a subcommand: create, revoke or list');
+  if (!(action in SUBCOMMANDS)) throw new UsageError(`unknown subcommand "${action}"`);
+  if (extra.length > 0 || (action !== 'list' && !name)) {
+    io.stderr.write(`pairwatch token ${action}: ${extra.length > 0 ? `unexpected argument "${extra[0]}"` : 'a token NAME is needed'}\n\n${SUBCOMMANDS[action as keyof typeof SUBCOMMANDS]}`);
     return 2;
   }
   if (name !== undefined) {
@@ -41,7 +48,7 @@ export const tokenCommand: CliCommand = async (argv, io) => {
     io.stderr.write(`pairwatch token ${action}: --role "${role}" is not one of ${USER_ROLES.join(', ')}\n`);
     return 2;
   }
-  const config = loadConfigForCli(values.config ?? DEFAULT_CONFIG_PATH, io);
+  const config = loadAccountsConfigForCli(values.config ?? DEFAULT_CONFIG_PATH, io);
   if (!config) return 2;
 
   let store: Store | null = null;
@@ -86,4 +93,4 @@ export const tokenCommand: CliCommand = async (argv, io) => {
   } finally {
     store?.close();
   }
-};
+} });

@@ -7,19 +7,27 @@ import { deleteWebSessionsForUser } from '../store/webSessionRepo.js';
 import { accountNameProblem } from '../web/auth/accountName.js';
 import { hashPassword, passwordProblem } from '../web/auth/passwordHash.js';
 import { isUserRole } from '../web/auth/roles.js';
-import type { CliCommand, CliIo } from './cliTypes.js';
-import { DEFAULT_CONFIG_PATH, loadConfigForCli } from './loadConfigForCli.js';
+import type { CliIo } from './cliTypes.js';
+import { defineCommand, UsageError } from './defineCommand.js';
+import { loadAccountsConfigForCli } from './loadAccountsConfig.js';
+import { DEFAULT_CONFIG_PATH } from './loadConfigForCli.js';
 
-const USAGE = `usage:
-  pairwatch user add NAME --role viewer|operator|admin [--password-stdin] [--config FILE]
-  pairwatch user passwd NAME [--password-stdin] [--config FILE]
-  pairwatch user role NAME --role viewer|operator|admin [--config FILE]
-  pairwatch user list [--config FILE]
-  pairwatch user remove NAME [--config FILE]
-Without --password-stdin the password is asked for on the terminal, twice, without echo.
+const PROMPT_NOTE = 'Without --password-stdin the password is asked for on the terminal, twice, without echo.\n';
+const SUBCOMMANDS = {
+  add: `usage: pairwatch user add NAME --role viewer|operator|admin [--password-stdin] [--config FILE]\n  Adds a person who may sign in. ${PROMPT_NOTE}`,
+  passwd: `usage: pairwatch user passwd NAME [--password-stdin] [--config FILE]\n  Sets a new password and ends that user's browser sessions. ${PROMPT_NOTE}`,
+  role: 'usage: pairwatch user role NAME --role viewer|operator|admin [--config FILE]\n  Changes what the user may do: viewers read, operators also acknowledge and shelve, admins also manage users.\n',
+  list: 'usage: pairwatch user list [--config FILE]\n  Lists the users, their roles and when they were added.\n',
+  remove: 'usage: pairwatch user remove NAME [--config FILE]\n  Removes the user and ends their sessions.\n',
+} as const;
+const USAGE = `usage: pairwatch user add|passwd|role|list|remove …
+${Object.values(SUBCOMMANDS)
+  .map((u) => `  ${u.split('\n')[0]!.replace('usage: ', '')}`)
+  .join('\n')}
+${PROMPT_NOTE}pairwatch user SUBCOMMAND --help shows one subcommand.
 `;
 
-class UsageProblem extends Error {}
+const UsageProblem = UsageError;
 
 /** Reads the password: the first line of stdin, or typed twice at a terminal without echo. */
 export async function readNewPassword(io: CliIo, fromStdin: boolean): Promise<string> {
@@ -86,12 +94,12 @@ async function newPasswordHash(io: CliIo, fromStdin: boolean) {
 }
 
 /** Opens the site's database beside a running daemon (no lock: this only touches the user tables). */
-export function openStoreForAccounts(config: SiteConfig): Store {
+export function openStoreForAccounts(config: Pick<SiteConfig, 'storage'> | { storage: { path: string } }): Store {
   return openStore({ path: resolve(config.storage.path), lock: false });
 }
 
 /** `pairwatch user …`: web users, stored in the site database with scrypt password hashes. */
-export const userCommand: CliCommand = async (argv, io) => {
+export const userCommand = defineCommand({ name: 'user', usage: USAGE, subcommands: SUBCOMMANDS, run: async (argv, io) => {
   const { values, positionals } = parseArgs({
     args: argv,
     allowPositionals: true,
@@ -102,11 +110,16 @@ export const userCommand: CliCommand = async (argv, io) => {
     },
   });
   const [action, name, ...extra] = positionals;
-  if (!action || !['add', 'passwd', 'role', 'list', 'remove'].includes(action) || extra.length > 0) {
-    io.stderr.write(USAGE);
+  if (!action) throw new UsageError('give a subcommand: add, passwd, role, list or remove');
+  if (!(action in SUBCOMMANDS)) throw new UsageError(`unknown subcommand "${action}"`);
+  const usageOf = SUBCOMMANDS[action as keyof typeof SUBCOMMANDS];
+  const subUsage = (message: string) => {
+    io.stderr.write(`pairwatch user ${action}: ${message}\n\n${usageOf}`);
     return 2;
-  }
-  const config = loadConfigForCli(values.config ?? DEFAULT_CONFIG_PATH, io);
+  };
+  if (extra.length > 0) return subUsage(`unexpected argument "${extra[0]}"`);
+  if (action !== 'list' && !name) return subUsage('a user NAME is needed');
+  const config = loadAccountsConfigForCli(values.config ?? DEFAULT_CONFIG_PATH, io);
   if (!config) return 2;
   const fromStdin = values['password-stdin'] ?? false;
 
@@ -177,4 +190,4 @@ export const userCommand: CliCommand = async (argv, io) => {
   } finally {
     store?.close();
   }
-};
+} });

@@ -6,6 +6,7 @@ import type { Band } from '../model/band.js';
 import { indexSite, initialSiteState, stepSite } from '../site/siteStep.js';
 import type { SiteState } from '../site/siteTypes.js';
 import type { CliCommand } from './cliTypes.js';
+import { defineCommand, UsageError } from './defineCommand.js';
 
 const MAX_INPUTS = 64;
 
@@ -13,22 +14,25 @@ const MAX_INPUTS = 64;
  * `pairwatch watch PORT`: commissioning view for wiring a new loop. Shows, live, each input's band,
  * pulse period and jitter and the classifier's verdict with default settings (or --period).
  */
-export const watchCommand: CliCommand = async (argv, io) => {
+const USAGE = `usage: pairwatch watch PORT [--baud 250000] [--period MS] [--inputs N] [--seconds N]
+  For wiring a new loop: opens a decoder port directly (not while the service holds it) and shows each
+  input's band, pulse period, jitter and the verdict, refreshed every second. Ctrl-C stops.
+  PORT: /dev/ttyACM0, tcp://host:port or sim:FILE
+`;
+
+export const watchCommand = defineCommand({ name: 'watch', usage: USAGE, run: async (argv, io) => {
   const { values, positionals } = parseArgs({
     args: argv,
     allowPositionals: true,
     options: {
-      baud: { type: 'string', default: '115200' },
+      baud: { type: 'string', default: '250000' },
       period: { type: 'string' },
       seconds: { type: 'string' },
       inputs: { type: 'string' },
     },
   });
   const port = positionals[0];
-  if (!port) {
-    io.stderr.write('usage: pairwatch watch PORT [--baud 115200] [--period MS] [--inputs N] [--seconds N]\n  PORT: /dev/ttyACM0, tcp://host:port or sim:FILE\n');
-    return 2;
-  }
+  if (!port) throw new UsageError('give the decoder PORT to watch');
   const baud = Number(values.baud);
   const periodMs = values.period ? Number(values.period) : DEFAULT_LOOP_SETTINGS.periodMs;
   if (!Number.isInteger(baud) || baud <= 0) return usageError(io, `--baud: "${values.baud}" is not a positive whole number`);
@@ -100,7 +104,7 @@ export const watchCommand: CliCommand = async (argv, io) => {
   render();
   await link.close();
   return 0;
-};
+} });
 
 function verdict(state: string, meanMs: number | null, periodMs: number): string {
   switch (state) {
@@ -119,7 +123,6 @@ function verdict(state: string, meanMs: number | null, periodMs: number): string
   }
 }
 
-function usageError(io: Parameters<CliCommand>[1], message: string): number {
-  io.stderr.write(`pairwatch watch: ${message}\n`);
-  return 2;
+function usageError(_io: Parameters<CliCommand>[1], message: string): never {
+  throw new UsageError(message);
 }

@@ -72,14 +72,41 @@ export function createReadModel(options: ReadModelOptions): WebReadModel {
 
   const listedAlarms = () => core.openAlarms().filter((a) => (LISTED_ALARM_STATES as readonly string[]).includes(a.state));
 
-  function alarmOfLoop(loopId: string, decoderId: string): LoopView['alarm'] {
-    const candidates = listedAlarms().filter((a) => a.loopId === loopId || (a.loopId === null && a.source === decoderId));
-    candidates.sort((a, b) => PRIORITY_RANK[a.priority] - PRIORITY_RANK[b.priority] || Number(b.active) - Number(a.active) || a.raisedAt - b.raisedAt);
-    const top = candidates[0];
+  /** The alarm a board tile shows first: highest priority, then active before cleared, then oldest. */
+  const showsBefore = (a: AlarmRecord, b: AlarmRecord) =>
+    PRIORITY_RANK[a.priority] - PRIORITY_RANK[b.priority] || Number(b.active) - Number(a.active) || a.raisedAt - b.raisedAt;
+
+  /**
+   * For every loop, the alarm its tile shows: its own, or its decoder's (loopId null, source the
+   * decoder). One pass over the open alarms for the whole board; on a full tie the alarm listed
+   * first wins, as a stable sort of the candidates would have it.
+   */
+  function topAlarms(): { byLoop: Map<string, AlarmRecord>; byDecoder: Map<string, AlarmRecord>; order: Map<AlarmRecord, number> } {
+    const byLoop = new Map<string, AlarmRecord>();
+    const byDecoder = new Map<string, AlarmRecord>();
+    const order = new Map<AlarmRecord, number>();
+    for (const alarm of listedAlarms()) {
+      order.set(alarm, order.size);
+      const map = alarm.loopId !== null ? byLoop : byDecoder;
+      const key = alarm.loopId ?? alarm.source;
+      const best = map.get(key);
+      if (best === undefined || showsBefore(alarm, best) < 0) map.set(key, alarm);
+    }
+    return { byLoop, byDecoder, order };
+  }
+
+  function alarmOfLoop(loopId: string, decoderId: string, tops: ReturnType<typeof topAlarms>): LoopView['alarm'] {
+    const own = tops.byLoop.get(loopId);
+    const decoder = tops.byDecoder.get(decoderId);
+    let top = own ?? decoder;
+    if (own && decoder) {
+      const cmp = showsBefore(own, decoder);
+      top = cmp < 0 || (cmp === 0 && tops.order.get(own)! < tops.order.get(decoder)!) ? own : decoder;
+    }
     return top ? { id: top.id, condition: top.condition, priority: top.priority, state: top.state } : null;
   }
 
-  function loopView(loopId: string): LoopView | null {
+  function loopView(loopId: string, tops: ReturnType<typeof topAlarms> = topAlarms()): LoopView | null {
     const loop = loopConfigs.get(loopId);
     const live = core.loopLive(loopId);
     if (!loop || !live) return null;
@@ -94,7 +121,7 @@ export function createReadModel(options: ReadModelOptions): WebReadModel {
       lastPulseAtMs: live.lastPulseAtMs,
       inService: core.isLoopInService(loop.id),
       serviceNote: core.outOfServiceNote(loop.id),
-      alarm: alarmOfLoop(loop.id, loop.decoder),
+      alarm: alarmOfLoop(loop.id, loop.decoder, tops),
       intermittent: live.intermittent,
     };
   }
@@ -122,7 +149,11 @@ export function createReadModel(options: ReadModelOptions): WebReadModel {
 
   return {
     siteName: () => config.site.name,
-    loops: () => config.loops.map((loop) => loopView(loop.id)).filter((v): v is LoopView => v !== null),
+    version: () => core.version(),
+    loops: () => {
+      const tops = topAlarms();
+      return config.loops.map((loop) => loopView(loop.id, tops)).filter((v): v is LoopView => v !== null);
+    },
     loop(id): LoopDetailView | null {
       const view = loopView(id);
       const live = core.loopLive(id);

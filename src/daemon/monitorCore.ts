@@ -8,14 +8,16 @@ import { loopSettingsFromConfig } from '../classify/loopSettings.js';
 import type { SiteConfig } from '../config/schema.js';
 import type { Condition } from '../model/condition.js';
 import type { LoopState } from '../model/loopState.js';
-import { queueNotices } from '../notify/noticeQueue.js';
+import { queueNotices, type NotifyEffect } from '../notify/noticeQueue.js';
 import { sessionCounters } from '../protocol/decoderSession.js';
 import { alarmInputsFor, loopsById, raiseFor, type LoopsById } from '../site/alarmInputsFor.js';
-import { indexSite, initialSiteState, stepSite, takeSiteQuality, type SiteIndex } from '../site/siteStep.js';
+import { DECODER_CLOCK_AHEAD_MS, indexSite, initialSiteState, stepSite, takeSiteQuality, type SiteIndex } from '../site/siteStep.js';
 import type { SiteEffect, SiteInput, SiteState } from '../site/siteTypes.js';
 import type { DurableWriter } from '../store/createDurableWriter.js';
 import type { EdgeRow } from '../store/edgeRepo.js';
 import type { Store } from '../store/openStore.js';
+import { recordRecipient } from '../store/recipientRepo.js';
+import type { DirectNotices } from './createDirectNotices.js';
 
 /**
  * The monitor's shell around the pure core: it feeds lines to the site step, maps effects to alarm
@@ -46,6 +48,10 @@ export interface MonitorCoreOptions {
   now: number;
   /** Told after every committed change, so the board can refresh. */
   onChange?: (what: 'loops' | 'alarms') => void;
+  /** Runs inside the transaction that commits alarm effects (the MQTT event outbox rides along). */
+  onAlarmEffects?: (s: Store, effects: readonly AlarmEffect[], now: number) => void;
+  /** Mails alarm notices from memory while storage fails (see createDirectNotices); without it they wait for the disk. */
+  directNotices?: Pick<DirectNotices, 'claim' | 'isClaimed' | 'noteAlarm'>;
 }
 
 const EDGE_BATCH_ROWS = 2000;
@@ -62,7 +68,8 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   const loops: LoopsById = loopsById(config);
   const index: SiteIndex = indexSite({
     loops: config.loops.map((loop) => ({ id: loop.id, decoderId: loop.decoder, input: loop.input, settings: loopSettingsFromConfig(loop) })),
-    decoders: config.decoders.map((d) => ({ id: d.id, silenceMs: d.silence })),
+    decoders: config.decoders.map((d) => ({ id: d.id, silenceMs: d.silence, inputs: d.inputs ?? null })),
+    decoderClockAheadMs: DECODER_CLOCK_AHEAD_MS,
   });
   const alarmContext: AlarmContext = { policies: policiesFromConfig(config), maxShelveMs: config.web.max_shelve };
 
@@ -98,6 +105,12 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   let edgeBuffer: EdgeRow[] = [];
   let edgeBufferSinceMs = 0;
   let pendingLastPulse = new Map<string, number>();
+  /**
+   * Bumped on every change a reader could see (loop figures, alarms, service, links, quality), so
+   * the web can keep a serialised body until the next bump. Reads are synchronous on this thread,
+   * so a read after any change always sees a new number.
+   */
+  let version = 0;
 
   // Every start records the loops as unknown: the classifier decides afresh within seconds.
   writer.commit('start', (s) => {
@@ -115,8 +128,41 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     for (const effect of effects) {
       if (effect.kind === 'alarm') s.alarms.upsert(effect.alarm);
       else if (effect.kind === 'audit') s.audit.insert(effect.entry);
-      else queueNotices(s.db, effect, now, config.mail.group_window);
+      else if (options.directNotices?.isClaimed(effect)) {
+        // Already mailed (or being mailed) from memory while the disk failed: record who was told, queue nothing.
+        for (const contactId of new Set(effect.contactIds)) recordRecipient(s.db, effect.alarmId, contactId, now);
+      } else queueNotices(s.db, effect, now, config.mail.group_window);
     }
+    if (effects.length > 0) options.onAlarmEffects?.(s, effects, now);
+  }
+
+  /**
+   * Commits alarm work; while storage fails, its notices are handed to the direct mailer instead of
+   * waiting in the writer's memory queue with the rest (issue: no alarm mail on a full disk). Claimed
+   * before the commit when storage is known to fail, and after it when this very commit found out.
+   * "Storage failing" itself is left out: its own alert already goes straight to the transport.
+   */
+  function commitAlarmWork(label: string, effects: readonly AlarmEffect[], now: number, work: (s: Store) => void): void {
+    const direct = options.directNotices;
+    const claim = () => {
+      if (!direct) return;
+      for (const effect of effects) {
+        if (effect.kind === 'alarm') direct.noteAlarm(effect.alarm);
+        if (effect.kind !== 'notify') continue;
+        const alarm = alarmRecordFor(effects, effect);
+        if (alarm?.condition === 'storage-failing') continue;
+        direct.claim(effect, alarm, now);
+      }
+    };
+    if (writer.status().failing !== null) claim();
+    const outcome = writer.commit(label, work);
+    if (outcome === 'queued') claim();
+  }
+
+  function alarmRecordFor(effects: readonly AlarmEffect[], notice: NotifyEffect): AlarmRecord | null {
+    let found: AlarmRecord | null = null;
+    for (const effect of effects) if (effect.kind === 'alarm' && effect.alarm.id === notice.alarmId) found = effect.alarm;
+    return found ?? openAlarms(book).find((a) => a.id === notice.alarmId) ?? null;
   }
 
   /** Runs alarm inputs through the engine; returns the effects to commit (the book is updated at once). */
@@ -128,6 +174,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
       results.push(result);
       if (result.error) continue;
       book = result.book;
+      version += 1;
       effects.push(...result.effects);
     }
     return { effects, results };
@@ -161,6 +208,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     const changes: Array<{ loopId: string; from: LoopState; to: LoopState; atMs: number; decoderUs: number | null; reason: string }> = [];
     const alarmInputs: AlarmInput[] = [];
     const decoderWork: Array<(s: Store) => void> = [];
+    version += 1;
     for (const effect of effects) {
       switch (effect.kind) {
         case 'edge':
@@ -212,6 +260,14 @@ export function createMonitorCore(options: MonitorCoreOptions) {
         case 'decoder-online':
           logger.info({ decoderId: effect.decoderId }, `decoder ${effect.decoderId} is talking again`);
           break;
+        case 'decoder-clock':
+          decoderFaultAt.set(effect.decoderId, now);
+          logger.warn({ decoderId: effect.decoderId, aheadMs: effect.aheadMs }, `decoder ${effect.decoderId} clock is ${effect.aheadMs} ms ahead of the host's: frame not applied, its loops start over`);
+          break;
+        case 'decoder-mass-trip':
+          decoderFaultAt.set(effect.decoderId, now);
+          logger.warn({ decoderId: effect.decoderId, loops: effect.loops }, `all ${effect.loops} loops of decoder ${effect.decoderId} tripped within a second: taken as the link, not ${effect.loops} trips; the loops start over`);
+          break;
       }
       alarmInputs.push(...alarmInputsFor(loops, effect, intermittentLoops));
     }
@@ -221,7 +277,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     const { effects: alarmEffects } = runAlarms(alarmInputs, now);
     // Edges first, so the raw evidence for a state change is stored with it.
     flushEdges();
-    writer.commit('state', (s) => {
+    commitAlarmWork('state', alarmEffects, now, (s) => {
       for (const change of changes) {
         s.stateChanges.insert({ loopId: change.loopId, from: change.from, to: change.to, decoderUs: change.decoderUs, at: change.atMs, reason: change.reason });
         s.loopStatus.setState(change.loopId, change.to, change.atMs);
@@ -234,11 +290,16 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     if (alarmEffects.length > 0) options.onChange?.('alarms');
   }
 
-  /** An operator's or the system's action on alarms; refused actions come back with their error. */
-  function alarmAction(input: AlarmInput, now: number): AlarmStepResult {
+  /**
+   * An operator's or the system's action on alarms; refused actions come back with their error.
+   * `alsoInTransaction` runs inside the same commit, only for an accepted action (an acknowledge link is
+   * spent this way, so a refused acknowledgement leaves it usable).
+   */
+  function alarmAction(input: AlarmInput, now: number, alsoInTransaction?: () => void): AlarmStepResult {
     const [result] = runAlarms([input], now).results;
     if (!result || result.error) return result ?? { book, effects: [] };
-    writer.commit(`alarm ${input.kind}`, (s) => {
+    commitAlarmWork(`alarm ${input.kind}`, result.effects, now, (s) => {
+      alsoInTransaction?.();
       if (input.kind === 'out-of-service' || input.kind === 'return-to-service') {
         s.loopStatus.setService(input.loopId, input.kind === 'return-to-service', input.note, input.actor, now);
       }
@@ -292,6 +353,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   function minute(now: number, bucketMs: number): void {
     const taken = takeSiteQuality(index, site);
     site = taken.state;
+    version += 1;
     const lastPulses = pendingLastPulse;
     pendingLastPulse = new Map();
     for (const { loopId, quality } of taken.qualities) {
@@ -339,6 +401,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
   function linkStatus(decoderId: string, status: { state: DecoderLinkStatus['state']; reason?: string }, now: number): void {
     const previous = links.get(decoderId);
     links.set(decoderId, { state: status.state, reason: status.reason ?? null, sinceMs: now });
+    version += 1;
     if (status.state === 'connected' && previous?.state !== 'connected') {
       logger.info({ decoderId }, `decoder ${decoderId} port open`);
       writer.commit('session open', (s) => {
@@ -373,6 +436,21 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     tick,
     minute,
     flushEdges,
+    /**
+     * The earliest host time at which a decoder that is still talking would count as silent (its last
+     * valid line plus its `silence`), or null when none can: the shell wakes the clock input then.
+     */
+    nextSilenceAtMs(): number | null {
+      let earliest: number | null = null;
+      for (const decoder of Object.values(site.decoders)) {
+        if (decoder.offline || decoder.lastValidAtMs === null) continue;
+        const at = decoder.lastValidAtMs + (index.silenceMs.get(decoder.id) ?? 0);
+        if (earliest === null || at < earliest) earliest = at;
+      }
+      return earliest;
+    },
+    /** Changes whenever anything the read model shows may have changed. */
+    version: () => version,
     /** Plain snapshots for the read model. */
     loopLive: (loopId: string) => live.get(loopId) ?? null,
     linkOf: (decoderId: string) => links.get(decoderId) ?? null,

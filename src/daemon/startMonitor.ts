@@ -1,4 +1,3 @@
-import { mkdirSync } from 'node:fs';
 import { dirname, resolve } from 'node:path';
 import type { Logger } from 'pino';
 import type { SiteConfig } from '../config/schema.js';
@@ -17,7 +16,9 @@ import { createMetrics } from '../ops/metrics.js';
 import { createStallGuard } from '../ops/stallGuard.js';
 import { createDurableWriter } from '../store/createDurableWriter.js';
 import { openStore, type Store } from '../store/openStore.js';
-import { enqueueOutbox } from '../store/outboxRepo.js';
+import { makePrivateDir } from '../store/privateFiles.js';
+import { enqueueOutbox, recordMailAudit } from '../store/outboxRepo.js';
+import { insertPendingNotice } from '../store/pendingNoticeRepo.js';
 import { buildWebServer } from '../web/buildWebServer.js';
 import { webListenWarnings } from '../web/webListenWarnings.js';
 import { createLiveFeed } from './createLiveFeed.js';
@@ -26,7 +27,12 @@ import { createReadModel } from './createReadModel.js';
 import { createWebCommands } from './createWebCommands.js';
 import { gatherDailyReport } from './gatherDailyReport.js';
 import { composeStorageAlert } from './composeStorageAlert.js';
+import { createDirectNotices } from './createDirectNotices.js';
 import { createMonitorCore } from './monitorCore.js';
+import { alarmEventsOf } from '../mqtt/alarmEvents.js';
+import { enqueueAlarmEvents } from '../mqtt/mqttOutbox.js';
+import { startSitePublisher, type SitePublisher } from '../mqtt/sitePublisher.js';
+import { findUnsavedAlarms, reserveSpace, writeUnsavedAlarms } from './writeUnsavedAlarms.js';
 import { runMaintenance } from './runMaintenance.js';
 import { createReplyHandler } from '../inbox/handleInboxMessage.js';
 import { createImapWatcher, type ImapWatcher } from '../inbox/imapWatcher.js';
@@ -65,9 +71,13 @@ export async function startMonitor(options: StartMonitorOptions) {
   const startedAt = now();
   const dbPath = resolve(config.storage.path);
   const dataDir = dirname(dbPath);
-  mkdirSync(dataDir, { recursive: true });
+  makePrivateDir(dataDir);
 
   const ackSecret = loadOrCreateAckSecret(dataDir);
+  reserveSpace(dataDir);
+  for (const file of findUnsavedAlarms(dataDir)) {
+    logger.error({ file }, `a previous stop could not store everything (the disk was full): what was lost is listed in ${file}; delete the file once read`);
+  }
   const noticeSettings = noticeSettingsFromConfig(config, ackSecret);
   let transport: MailTransport;
   if (options.transport) transport = options.transport;
@@ -83,7 +93,7 @@ export async function startMonitor(options: StartMonitorOptions) {
     return config.contacts.filter((c) => first.length === 0 || first.includes(c.id)).map((c) => mailbox(c));
   };
 
-  const store: Store = openStore({ path: dbPath });
+  const store: Store = openStore({ path: dbPath, cacheKib: config.storage.cache_kib });
   if (store.opened.backupFile) logger.info({ backup: store.opened.backupFile }, 'database backed up before migrating');
 
   // The core is created after the writer, which must report to it: bind late.
@@ -111,18 +121,31 @@ export async function startMonitor(options: StartMonitorOptions) {
       logger.error({ label, err: error }, `a write was refused by the database and dropped (${label})`);
     },
   });
+  // Alarm mail while the disk fails goes straight from memory (see createDirectNotices).
+  const directNotices = createDirectNotices({
+    settings: noticeSettings,
+    transport,
+    groupWindowMs: config.mail.group_window,
+    retryFirstMs: config.mail.retry_first,
+    retryMaxMs: config.mail.retry_max,
+  });
   const live = createLiveFeed();
   let onAlarmsChanged: () => void = () => undefined;
+  let publisher: SitePublisher | null = null; // mqtt (issue 12)
   core = createMonitorCore({
     config,
     store,
     writer,
     logger,
     now: startedAt,
+    directNotices,
     onChange: (what) => {
       live.publish({ type: what });
       if (what === 'alarms') onAlarmsChanged();
+      publisher?.changed();
+      if (what === 'alarms') publisher?.eventsQueued();
     },
+    ...(config.mqtt && { onAlarmEffects: (s, effects, t) => void enqueueAlarmEvents(s.db, alarmEventsOf(effects), t) }),
   });
   const monitorCore = core;
 
@@ -143,7 +166,6 @@ export async function startMonitor(options: StartMonitorOptions) {
       logger.info('mail flowing again');
       monitorCore.clearSystem('mail-failing', now());
     },
-    onSent: (row) => logger.info({ messageId: row.messageId, to: row.to, subject: row.subject }, `mail sent: ${row.subject}`),
     onFailed: (row, err) => {
       mailFailures += 1;
       logger.warn({ messageId: row.messageId, err: err.message }, `mail not sent yet: ${err.message}`);
@@ -153,30 +175,63 @@ export async function startMonitor(options: StartMonitorOptions) {
 
   const read = createReadModel({ config, store, core: monitorCore, writer, mailFailing: () => worker.isFailing(), now });
   const commands = createWebCommands(config, monitorCore, now);
-  const web = buildWebServer({ config, db: store.db, read, commands, live, ackSecret, now, logger });
-  for (const warning of webListenWarnings(config)) logger.warn(warning);
-
-  // Prometheus scrape, without auth like /healthz: keep web.listen on a trusted network.
   const metrics = createMetrics();
   const syncMetrics = createMetricsSync({ config, core: monitorCore, store, metrics, mailFailures: () => mailFailures });
-  web.get('/metrics', async (_request, reply) => {
-    syncMetrics();
-    return reply.type(metrics.contentType).send(await metrics.render());
-  });
+  const metricsSource = {
+    contentType: metrics.contentType,
+    render: () => {
+      syncMetrics();
+      return metrics.render();
+    },
+  };
+  const web = buildWebServer({ config, db: store.db, read, commands, live, ackSecret, now, logger, metrics: metricsSource });
+  for (const warning of webListenWarnings(config)) logger.warn(warning);
+
   // Listen before any timer or decoder link starts, so a port already taken fails the start cleanly.
   let address: string | null = null;
   if (options.listen !== false) {
     const [host, portText] = splitListen(config.web.listen);
     try {
-      address = await web.listen({ host, port: Number(portText) });
+      // fastify logs the one "listening" line itself; ours would be a second line for the same event.
+      address = await web.listen({ host, port: Number(portText), listenTextResolver: (at) => `web server listening on ${at}` });
     } catch (err) {
       await web.close().catch(() => undefined);
       store.close();
       const code = (err as NodeJS.ErrnoException).code;
       throw Object.assign(new Error(`web.listen: cannot listen on ${config.web.listen}: ${code === 'EADDRINUSE' ? 'the port is already in use (is pairwatch already running?)' : (err as Error).message}`), { code: 'PW_WEB_LISTEN_FAILED' });
     }
-    logger.info({ address }, `web server listening on ${address}`);
   }
+
+  // --- mqtt (issue 12): states and alarm events to an MQTT 5 broker -------------------------------
+  const mqttConfig = config.mqtt;
+  if (mqttConfig) {
+    const started = () => startSitePublisher({
+      config: mqttConfig,
+      site: { name: config.site.name, timezone: config.site.timezone, url: config.web.public_url ?? null },
+      db: store.db,
+      read,
+      commands,
+      now,
+      logger,
+      version: options.version ?? null,
+      startedAt,
+      env,
+      initiallyUnreachable: monitorCore.openAlarms().some((a) => a.condition === 'broker-unreachable' && a.active),
+      onUnreachable: (reason) => {
+        logger.error({ reason }, `broker unreachable: ${reason}`);
+        monitorCore.raiseSystem('broker-unreachable', now());
+      },
+      onReachable: () => monitorCore.clearSystem('broker-unreachable', now()),
+    });
+    try {
+      publisher = started();
+    } catch (err) {
+      await web.close().catch(() => undefined);
+      store.close();
+      throw err;
+    }
+  }
+  // --- end mqtt ------------------------------------------------------------------------------------
 
   const stallGuard = createStallGuard({
     onStall: (report) => {
@@ -230,17 +285,50 @@ export async function startMonitor(options: StartMonitorOptions) {
     const t = now();
     monitorCore.tick(t);
     if (writer.pending() > 0) writer.flush();
+    armSilence();
   }, FAST_TICK_MS);
   timers.push(fast);
+
+  // --- offline at the exact silence deadline (issue 14) -----------------------------------------
+  // The fast tick alone notices silence up to FAST_TICK_MS late. One timer sleeps until the earliest
+  // deadline; a line that arrived meanwhile only moved the deadline on, so the timer then re-arms.
+  // The fast tick arms it again once a decoder is back from offline. At most one wake-up per silence
+  // period. Unref'd: it never keeps a stopping process alive.
+  let silenceTimer: NodeJS.Timeout | null = null;
+  function armSilence(): void {
+    if (silenceTimer !== null || stopping) return;
+    const at = monitorCore.nextSilenceAtMs();
+    if (at === null) return;
+    silenceTimer = setTimeout(() => {
+      silenceTimer = null;
+      if (stopping) return;
+      const t = now();
+      const due = monitorCore.nextSilenceAtMs();
+      if (due !== null && t >= due) monitorCore.handle({ kind: 'clock' }, t);
+      armSilence();
+    }, Math.max(1, at - now()));
+    silenceTimer.unref();
+  }
+  armSilence();
+  // --- end of offline at the exact silence deadline ---------------------------------------------
 
   async function runNotifications(flushAll = false): Promise<void> {
     if (notifyBusy) return;
     notifyBusy = true;
     try {
       if (writer.status().failing === null) {
+        if (directNotices.pending() > 0) {
+          // Storage writes again: notices the direct mailer could not get out yet join the outbox, due now.
+          const back = directNotices.handBack(now());
+          writer.commit('direct notices handed back', (s) => {
+            for (const notice of back) insertPendingNotice(s.db, notice);
+          });
+        }
         // On a stop, notices still inside their grouping window go out now rather than wait for a restart.
         flushDigests(store.db, now() + (flushAll ? config.mail.group_window : 0), noticeSettings);
         await worker.runOnce();
+      } else {
+        await mailDirectly(flushAll);
       }
     } catch (err) {
       logger.error({ err }, `notification round failed: ${(err as Error).message}`);
@@ -249,6 +337,16 @@ export async function startMonitor(options: StartMonitorOptions) {
     }
   }
   timers.push(setInterval(() => void runNotifications(), NOTIFY_TICK_MS));
+
+  /** While storage fails: alarm notices straight from memory; the audit of each send waits in the writer like any write. */
+  async function mailDirectly(flushAll: boolean): Promise<void> {
+    for (const sent of await directNotices.round(now(), flushAll)) {
+      logger.info({ alarmIds: sent.alarmIds, contactId: sent.contactId }, `mail sent directly while storage fails: ${sent.subject}`);
+      writer.commit('direct mail audit', (s) => {
+        recordMailAudit(s.db, { at: sent.at, action: 'mail-sent', alarmIds: sent.alarmIds, note: `${sent.subject} → ${sent.contactId} (sent directly while storage was failing)`.slice(0, 1000) });
+      });
+    }
+  }
 
   // Besides the once-a-second round, wake exactly when the earliest queued notice falls due, so an
   // alarm's mail is not held up to a second behind its grouping window.
@@ -362,7 +460,7 @@ export async function startMonitor(options: StartMonitorOptions) {
   // --- end reply inbox ---
 
   if (options.announce !== false) lifecycleMail('started', null);
-  logger.info({ site: config.site.name, loops: config.loops.length, decoders: config.decoders.length }, `monitoring ${config.site.name}: ${config.loops.length} loop(s)`);
+  logger.info({ site: config.site.name, loops: config.loops.length, decoders: config.decoders.length }, `monitoring ${config.site.name}: ${config.loops.length} ${config.loops.length === 1 ? 'loop' : 'loops'}`);
 
   /** Graceful stop: finish writes, queue and try to send "monitoring stopped", close the database. */
   async function stop(reason: string, deadlineMs = 8000): Promise<void> {
@@ -383,12 +481,21 @@ export async function startMonitor(options: StartMonitorOptions) {
     await Promise.race([runNotifications(true), new Promise((r) => (giveUp = setTimeout(r, remaining)))]);
     clearTimeout(giveUp);
     await web.close().catch(() => undefined);
+    await publisher?.stop(); // mqtt (issue 12)
     writer.flush();
+    if (writer.pending() > 0 || directNotices.pending() > 0) {
+      // The disk still refuses: say what is lost with this process, and keep the alarms somewhere that survives it.
+      const file = writeUnsavedAlarms([dataDir], { at: now(), queued: writer.queuedLabels(), alarms: monitorCore.openAlarms(), unmailed: directNotices.unsent() });
+      logger.error(
+        { queued: writer.queuedLabels(), unmailed: directNotices.unsent(), alarms: monitorCore.openAlarms().map((a) => ({ id: a.id, source: a.source, loopId: a.loopId, condition: a.condition, state: a.state, raisedAt: new Date(a.raisedAt).toISOString() })), file },
+        `stopping with ${writer.pending()} write(s) the disk never took and ${directNotices.pending()} notice(s) not mailed; ${file ? `open alarms saved to ${file}` : 'no folder would take the open alarms either: they are only in this log'}`,
+      );
+    }
     store.close();
     logger.info({ reason }, 'monitor stopped');
   }
 
-  return { inbox, core: monitorCore, store, writer, web, worker, read, commands, address, stop, runNotifications, dataDir, mailFolder: config.mail.smtp ? null : resolve(dropFolderFor(config)) };
+  return { inbox, core: monitorCore, store, writer, web, worker, read, commands, address, stop, mqtt: publisher, runNotifications, dataDir, mailFolder: config.mail.smtp ? null : resolve(dropFolderFor(config)) };
 }
 
 export type Monitor = Awaited<ReturnType<typeof startMonitor>>;

@@ -16,6 +16,7 @@ export const CONDITIONS = [
   'mail-failing',
   'storage-failing',
   'inbox-failing',
+  'broker-unreachable',
 ] as const;
 export type Condition = (typeof CONDITIONS)[number];
 
@@ -30,6 +31,7 @@ export const CONDITION_PRIORITY = {
   'mail-failing': 'system',
   'storage-failing': 'system',
   'inbox-failing': 'system',
+  'broker-unreachable': 'system',
 } as const satisfies Record<Condition, Priority>;
 
 /** Sort key: alarms first, then trouble, then system. */
@@ -76,5 +78,9 @@ export const CONDITION_TEXT = {
   'inbox-failing': {
     words: 'reply inbox failing: the monitor cannot read the mailbox that replies to alarm mail go to, so a reply cannot acknowledge',
     check: 'Check mail.imap (host, user, the app password in pass_env) and run `pairwatch doctor`; acknowledge on the board meanwhile.',
+  },
+  'broker-unreachable': {
+    words: 'broker unreachable: the monitor cannot hand its states and alarm events to the MQTT broker',
+    check: 'Check the network to the broker and its address, user and password (mqtt: in the config); events wait in the outbox meanwhile.',
   },
 } as const satisfies Record<Condition, { words: string; check: string }>;

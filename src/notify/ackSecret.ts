@@ -1,4 +1,5 @@
-import { chmodSync, mkdirSync, readFileSync, statSync, writeFileSync } from 'node:fs';
+import { chmodSync, readFileSync, statSync, writeFileSync } from 'node:fs';
+import { makePrivateDir } from '../store/privateFiles.js';
 import { randomBytes } from 'node:crypto';
 import { join } from 'node:path';
 import { NotifyError } from './notifyError.js';
@@ -13,7 +14,7 @@ const SECRET_BYTES = 32;
  */
 export function loadOrCreateAckSecret(dataDir: string): Buffer {
   const file = join(dataDir, ACK_SECRET_FILE);
-  mkdirSync(dataDir, { recursive: true });
+  makePrivateDir(dataDir);
   try {
     writeFileSync(file, `${randomBytes(SECRET_BYTES).toString('hex')}\n`, { flag: 'wx', mode: 0o600 });
   } catch (err) {

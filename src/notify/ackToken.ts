@@ -1,13 +1,18 @@
 import { createHmac, randomBytes, timingSafeEqual } from 'node:crypto';
 
 /**
- * Signed acknowledge-link tokens. A token names one alarm, an expiry and a single-use id, and is
- * signed with HMAC-SHA256 (RFC 2104, FIPS 198-1) under the site's secret. Every character is from
- * RFC 3986's unreserved set, so the token sits in a URL path without escaping.
+ * Signed acknowledge-link tokens. A token names one alarm, the contact it was mailed to, an expiry and
+ * a single-use id, and is signed with HMAC-SHA256 (RFC 2104, FIPS 198-1) under the site's secret. Every
+ * character is from RFC 3986's unreserved set, so the token sits in a URL path without escaping.
  *
- * Layout: `a1.<alarmId>.<expiresAt epoch ms>.<tokenId>.<base64url MAC>`
+ * Layout: `a2.<alarmId>.<contactId>.<expiresAt epoch ms>.<tokenId>.<base64url MAC>`. Links of the
+ * earlier layout `a1.<alarmId>.<expiresAt>.<tokenId>.<MAC>` (no contact) still in mailboxes keep working
+ * until they expire; they verify with `contactId: null`.
  */
-const TOKEN_VERSION = 'a1';
+const TOKEN_VERSION = 'a2';
+const OLD_VERSION = 'a1';
+/** The config's contact id rule: never a dot, all RFC 3986 unreserved. */
+const CONTACT_ID_RE = /^[a-z0-9][a-z0-9_-]{0,39}$/;
 const MAC_LABEL = 'pairwatch-ack';
 const MAC_BYTES = 32;
 const TOKEN_ID_RE = /^[A-Za-z0-9_-]{8,64}$/;
@@ -17,12 +22,14 @@ const MAC_RE = /^[A-Za-z0-9_-]{43}$/;
 
 export interface AckTokenClaims {
   alarmId: number;
+  /** The contact the link was mailed to; their name is recorded as who acknowledged. */
+  contactId: string;
   expiresAt: number;
   tokenId: string;
 }
 
 export type AckTokenCheck =
-  | { ok: true; alarmId: number; tokenId: string; expiresAt: number }
+  | { ok: true; alarmId: number; contactId: string | null; tokenId: string; expiresAt: number }
   | { ok: false; reason: 'malformed' | 'forged' | 'expired' };
 
 /** A fresh single-use id: 128 random bits, base64url. */
@@ -35,8 +42,8 @@ export function computeAckMac(payload: string, secret: Buffer): Buffer {
   return createHmac('sha256', secret).update(payload, 'utf8').digest();
 }
 
-function signedPart(alarmId: number, expiresAt: number, tokenId: string): string {
-  return `${TOKEN_VERSION}.${alarmId}.${expiresAt}.${tokenId}`;
+function signedPart(alarmId: number, contactId: string | null, expiresAt: number, tokenId: string): string {
+  return contactId === null ? `${OLD_VERSION}.${alarmId}.${expiresAt}.${tokenId}` : `${TOKEN_VERSION}.${alarmId}.${contactId}.${expiresAt}.${tokenId}`;
 }
 
 function macInput(part: string): string {
@@ -45,11 +52,12 @@ function macInput(part: string): string {
 }
 
 export function signAckToken(claims: AckTokenClaims, secret: Buffer): string {
-  const { alarmId, expiresAt, tokenId } = claims;
+  const { alarmId, contactId, expiresAt, tokenId } = claims;
   if (!Number.isSafeInteger(alarmId) || alarmId < 1) throw new RangeError(`alarmId must be a positive integer, got ${alarmId}`);
   if (!Number.isSafeInteger(expiresAt) || expiresAt < 0) throw new RangeError(`expiresAt must be epoch milliseconds, got ${expiresAt}`);
   if (!TOKEN_ID_RE.test(tokenId)) throw new RangeError('tokenId must be 8–64 characters of A-Z a-z 0-9 _ -');
-  const part = signedPart(alarmId, expiresAt, tokenId);
+  if (!CONTACT_ID_RE.test(contactId)) throw new RangeError(`contactId must be a config contact id, got ${JSON.stringify(contactId)}`);
+  const part = signedPart(alarmId, contactId, expiresAt, tokenId);
   return `${part}.${computeAckMac(macInput(part), secret).toString('base64url')}`;
 }
 
@@ -60,10 +68,13 @@ export function signAckToken(claims: AckTokenClaims, secret: Buffer): string {
 export function verifyAckToken(token: string, secret: Buffer, now: number): AckTokenCheck {
   if (typeof token !== 'string' || token.length > 200) return { ok: false, reason: 'malformed' };
   const parts = token.split('.');
-  if (parts.length !== 5) return { ok: false, reason: 'malformed' };
-  const [version, alarmText, expiresText, tokenId, macText] = parts as [string, string, string, string, string];
+  let contactId: string | null = null;
+  if (parts.length === 6 && parts[0] === TOKEN_VERSION) {
+    contactId = parts.splice(2, 1)[0]!;
+    if (!CONTACT_ID_RE.test(contactId)) return { ok: false, reason: 'malformed' };
+  } else if (parts.length !== 5 || parts[0] !== OLD_VERSION) return { ok: false, reason: 'malformed' };
+  const [, alarmText, expiresText, tokenId, macText] = parts as [string, string, string, string, string];
   if (
-    version !== TOKEN_VERSION ||
     !ALARM_ID_RE.test(alarmText) ||
     !EXPIRES_RE.test(expiresText) ||
     !TOKEN_ID_RE.test(tokenId) ||
@@ -75,12 +86,12 @@ export function verifyAckToken(token: string, secret: Buffer, now: number): AckT
   const expiresAt = Number(expiresText);
   if (!Number.isSafeInteger(alarmId) || !Number.isSafeInteger(expiresAt)) return { ok: false, reason: 'malformed' };
 
-  const expected = computeAckMac(macInput(signedPart(alarmId, expiresAt, tokenId)), secret);
+  const expected = computeAckMac(macInput(signedPart(alarmId, contactId, expiresAt, tokenId)), secret);
   const given = Buffer.from(macText, 'base64url');
   // Re-encoding guards against non-canonical base64url spellings of the same bytes.
   if (given.length !== MAC_BYTES || given.toString('base64url') !== macText || !timingSafeEqual(given, expected)) {
     return { ok: false, reason: 'forged' };
   }
   if (now >= expiresAt) return { ok: false, reason: 'expired' };
-  return { ok: true, alarmId, tokenId, expiresAt };
+  return { ok: true, alarmId, contactId, tokenId, expiresAt };
 }

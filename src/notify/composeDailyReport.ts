@@ -1,3 +1,4 @@
+import { countOf } from '../model/plural.js';
 import type { AlarmState } from '../model/alarmState.js';
 import { PRIORITIES, type Condition, type Priority } from '../model/condition.js';
 import type { LoopState } from '../model/loopState.js';
@@ -126,7 +127,7 @@ function decoderLine(decoder: ReportDecoder, periodMs: number): string {
   const lostShare = decoder.frames + decoder.lostFrames > 0 ? (decoder.lostFrames / (decoder.frames + decoder.lostFrames)) * 100 : 0;
   return (
     `${decoder.name ?? decoder.id}: ${decoder.status}; connected ${formatElapsed(decoder.connectedMsInPeriod)} of ${formatPeriod(periodMs)} ` +
-    `(${share.toFixed(1)} %), ${decoder.restarts} restart(s), ${decoder.frames} frames, ` +
+    `(${share.toFixed(1)} %), ${countOf(decoder.restarts, 'restart')}, ${decoder.frames} frames, ` +
     `${decoder.lostFrames} lost (${lostShare.toFixed(3)} %), ${decoder.badFrames} garbled`
   );
 }
@@ -148,7 +149,7 @@ function buildSections(data: DailyReportData, periodMs: number): Section[] {
   sections.push({
     heading: 'MAIL',
     lines: [
-      `${data.mail.sentInPeriod} sent, ${data.mail.failedAttemptsInPeriod} failed attempt(s) in the period; ${data.mail.pending} waiting in the outbox.`,
+      `${data.mail.sentInPeriod} sent, ${countOf(data.mail.failedAttemptsInPeriod, 'failed attempt')} in the period; ${data.mail.pending} waiting in the outbox.`,
     ],
   });
   return sections;

@@ -1,3 +1,4 @@
+import { countOf } from '../model/plural.js';
 import { escapeHtml } from './escapeHtml.js';
 import { formatSiteAndUtc } from './formatSiteTime.js';
 import { mailFooterHtml, mailFooterText, mailPageHtml, PRIORITY_TAG } from './mailLayout.js';
@@ -31,14 +32,14 @@ export function composeLifecycleMail(event: LifecycleEvent, data: LifecycleData,
     event === 'started'
       ? [
           `pairwatch${version} started at ${when}.`,
-          `It watches ${data.loopCount} loop(s) on ${data.decoderCount} decoder(s).`,
+          `It watches ${countOf(data.loopCount, 'loop')} on ${countOf(data.decoderCount, 'decoder')}.`,
           data.nextReportAt !== null
             ? `The next daily report is due ${formatSiteAndUtc(data.nextReportAt, data.timeZone)}.`
             : 'No daily report is configured (report.notify is empty).',
         ]
       : [
           `pairwatch${version} was stopped on purpose at ${when}${data.reason ? ` (${data.reason})` : ''}.`,
-          `Its ${data.loopCount} loop(s) are NOT watched until it is started again: no alarms, no daily report.`,
+          `${data.loopCount === 1 ? 'Its 1 loop is' : `Its ${data.loopCount} loops are`} NOT watched until it is started again: no alarms, no daily report.`,
         ];
 
   const text = [subject, '', ...lines, '', mailFooterText(data.siteName, data.publicUrl)].join('\n');

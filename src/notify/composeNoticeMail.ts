@@ -29,6 +29,7 @@ export const CONDITION_SHORT = {
   'mail-failing': 'mail failing',
   'storage-failing': 'storage failing',
   'inbox-failing': 'reply inbox failing',
+  'broker-unreachable': 'broker unreachable',
 } as const satisfies Record<Condition, string>;
 
 const SUBJECT_MAX = 160;
@@ -165,12 +166,12 @@ function entryFacts(entry: Entry, digest: Digest, ctx: NoticeComposeContext): En
     const at = alarm.ackedAt !== null ? ` at ${formatSiteAndUtc(alarm.ackedAt, ctx.timeZone)}` : '';
     rows.push({ label: 'Acknowledged', value: `by ${by}${at}` });
     const note = entry.last.kind === 'acknowledged' ? (entry.last.note ?? alarm.note) : alarm.note;
-    rows.push({ label: 'Their note', value: note && note.trim() ? note : '(none)' });
+    rows.push({ label: 'Their note', value: note && note.trim() ? quoted(note) : '(none)' });
   }
   if (alarm.clearedAt !== null) rows.push({ label: 'Back to normal', value: formatSiteAndUtc(alarm.clearedAt, ctx.timeZone) });
   if (alarm.state === 'shelved' && alarm.shelvedUntil !== null) {
     const by = kind === 'shelved' && entry.last.actor ? ` by ${entry.last.actor}` : '';
-    const reason = alarm.shelveReason ? `: ${alarm.shelveReason}` : '';
+    const reason = alarm.shelveReason ? `: ${quoted(alarm.shelveReason)}` : '';
     rows.push({ label: 'Shelved', value: `until ${formatSiteAndUtc(alarm.shelvedUntil, ctx.timeZone)}${by}${reason}` });
   }
   rows.push({ label: 'Status', value: statusWords(alarm) });
@@ -181,10 +182,19 @@ function entryFacts(entry: Entry, digest: Digest, ctx: NoticeComposeContext): En
 
   let link: string | null = null;
   if (ctx.ack && STATES_WITH_ACK_LINK.has(alarm.state)) {
-    const token = signAckToken({ alarmId: alarm.id, expiresAt: ctx.now + ctx.ack.ttlMs, tokenId: ctx.ack.newTokenId() }, ctx.ack.secret);
+    const token = signAckToken({ alarmId: alarm.id, contactId: digest.contactId, expiresAt: ctx.now + ctx.ack.ttlMs, tokenId: ctx.ack.newTokenId() }, ctx.ack.secret);
     link = `${ctx.publicUrl}/ack/${token}`;
   }
   return { title: `${labelOf(alarm, ctx)} — ${phrase(entry)}`, rows, link };
+}
+
+/**
+ * A person's words inside the mail, always between quotation marks and on the line they started on, so
+ * text someone typed can never pass for a line of the monitor's own (the web boundary already folds
+ * line breaks; this also covers rows stored before it did).
+ */
+function quoted(text: string): string {
+  return `“${text.replace(/[\r\n\u2028\u2029]+/g, ' ')}”`;
 }
 
 function statusWords(alarm: NoticeAlarm): string {

@@ -1,4 +1,5 @@
-import { mkdirSync, renameSync, writeFileSync, accessSync, constants as fsConstants } from 'node:fs';
+import { chmodSync, renameSync, writeFileSync, accessSync, constants as fsConstants } from 'node:fs';
+import { makePrivateDir, PRIVATE_FILE_MODE } from '../store/privateFiles.js';
 import { join, resolve } from 'node:path';
 import { format } from 'node:util';
 import type { ConnectionOptions } from 'node:tls';
@@ -142,10 +143,12 @@ export function createDropFolderTransport(dir: string): MailTransport {
       const date = sendOptions?.date ?? Date.now();
       try {
         const info = await composer.sendMail(toNodemailer(message, date));
-        mkdirSync(folder, { recursive: true });
+        makePrivateDir(folder);
         const file = join(folder, emlFileName(message, date));
         const temp = `${file}.part`;
-        writeFileSync(temp, info.message as Buffer);
+        // Owner-only whatever the umask: the message carries live acknowledge links.
+        writeFileSync(temp, info.message as Buffer, { mode: PRIVATE_FILE_MODE });
+        chmodSync(temp, PRIVATE_FILE_MODE);
         renameSync(temp, file);
         return { accepted: [...message.to], response: `written to ${file}`, location: file };
       } catch (err) {
@@ -154,7 +157,7 @@ export function createDropFolderTransport(dir: string): MailTransport {
     },
     async verify() {
       try {
-        mkdirSync(folder, { recursive: true });
+        makePrivateDir(folder);
         accessSync(folder, fsConstants.W_OK);
         return { ok: true, detail: `mail is written as .eml files to ${folder}` };
       } catch (err) {

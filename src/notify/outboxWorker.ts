@@ -112,7 +112,7 @@ export function createOutboxWorker(options: OutboxWorkerOptions): OutboxWorker {
         sentTx(row, at, outcome.value);
         result.sent++;
         consecutiveFailures = 0;
-        logger.info({ messageId: row.messageId, to: row.to, attempts: row.attempts + 1, response: outcome.value.response }, 'mail sent');
+        logger.info({ messageId: row.messageId, to: row.to, subject: row.subject, attempts: row.attempts + 1, response: outcome.value.response }, `mail sent: ${row.subject}`);
         call('onSent', () => options.onSent?.(row, outcome.value));
         if (failing) {
           failing = false;

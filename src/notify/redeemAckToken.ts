@@ -5,7 +5,7 @@ import { verifyAckToken } from './ackToken.js';
 export type AckLinkRefusal = 'malformed' | 'forged' | 'expired' | 'used' | 'other-alarm';
 
 export type AckLinkCheck =
-  | { ok: true; alarmId: number; tokenId: string; expiresAt: number }
+  | { ok: true; alarmId: number; contactId: string | null; tokenId: string; expiresAt: number }
   | { ok: false; reason: AckLinkRefusal };
 
 /** Plain words for a refused link, for the confirmation page. */

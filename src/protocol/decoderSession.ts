@@ -9,7 +9,12 @@ import { parseLine } from './parseLine.js';
  *
  * Time: `decoderUs` is the decoder's own µs count, unwrapped across the 32-bit wrap. It starts at the
  * first frame's raw time and never goes backwards within a session: after a HELLO (the decoder
- * restarted, its clock from 0) time continues from the last value seen plus the new raw time.
+ * restarted, its clock from 0) time continues from the last value seen plus the new raw time. A
+ * restart whose HELLO was lost (the clock more than LATE_FRAME_SLACK_US back, or the seq far behind)
+ * continues from the last value seen: how long the decoder was down is not known, so none is invented.
+ *
+ * Sequence: the seq the last frame carried, again, is a duplicate line — dropped and counted under
+ * `duplicates`, never as 65 535 lost frames.
  */
 export interface DecoderCounters {
   /** Every line handed in, good or bad. */
@@ -26,6 +31,8 @@ export interface DecoderCounters {
   readonly silentRestarts: number;
   /** Frames stamped slightly earlier than the one before; given the previous time. */
   readonly lateFrames: number;
+  /** Frames carrying the seq of the frame before (a line received twice): dropped, not applied. */
+  readonly duplicates: number;
 }
 
 export interface DecoderSession {
@@ -37,6 +44,8 @@ export interface DecoderSession {
   /** Unwrapped time the raw clock counts from since the last (re)start. */
   readonly baseUs: number;
   readonly lastDecoderUs: number | null;
+  /** Inputs the config says the decoder has: until a HELLO announces its own count, frames must fit this. */
+  readonly configuredLoops: number | null;
   readonly counters: DecoderCounters;
 }
 
@@ -44,13 +53,14 @@ export interface DecoderSession {
 export const LATE_FRAME_SLACK_US = 1_000_000;
 const HALF_WRAP = TIME_MODULO / 2;
 
-export function initialDecoderSession(): DecoderSession {
+export function initialDecoderSession(configuredLoops: number | null = null): DecoderSession {
   return {
     hello: null,
     expectedSeq: null,
     lastRawTime: null,
     baseUs: 0,
     lastDecoderUs: null,
+    configuredLoops,
     counters: {
       lines: 0,
       frames: 0,
@@ -60,6 +70,7 @@ export function initialDecoderSession(): DecoderSession {
       hellos: 0,
       silentRestarts: 0,
       lateFrames: 0,
+      duplicates: 0,
     },
   };
 }
@@ -123,8 +134,18 @@ function acceptFrame(session: DecoderSession, frame: Frame): SessionStep {
   const misfit = misfitForHello(session, frame);
   if (misfit !== null) return dropped(session, 'range', misfit);
 
+  const seqBehind = session.expectedSeq === null ? 0 : (session.expectedSeq - frame.seq + SEQ_MODULO) % SEQ_MODULO;
+  if (seqBehind === 1) {
+    // The seq of the frame before: the same line delivered twice. Applying it again could only mislead.
+    return { session: { ...session, counters: { ...session.counters, duplicates: session.counters.duplicates + 1 } }, events: [] };
+  }
+
   const events: DecoderEvent[] = [];
   let next = advanceClock(session, frame.time);
+  if (next.counters.silentRestarts === session.counters.silentRestarts && next.expectedSeq !== null && seqBehind > 1 && seqBehind <= SEQ_MODULO / 2) {
+    // The seq went back (further than a duplicate) while the clock did not: a restart all the same.
+    next = { ...next, expectedSeq: null, counters: { ...next.counters, silentRestarts: next.counters.silentRestarts + 1 } };
+  }
   const decoderUs = next.lastDecoderUs!;
   if (next.counters.silentRestarts > session.counters.silentRestarts) {
     // The decoder restarted and its HELLO never reached us: say so as the restart fault it is.
@@ -151,13 +172,27 @@ function acceptFrame(session: DecoderSession, frame: Frame): SessionStep {
   return { session: next, events };
 }
 
-/** Why an EDGE/TICK/FAULT does not fit the loop count the last HELLO announced; null when it fits (or no HELLO yet). */
+/**
+ * Why an EDGE/TICK/FAULT does not fit the loop count the last HELLO announced — or, with no HELLO in
+ * this session (joined mid-stream, after a replug or a monitor restart), the inputs the config gives
+ * the decoder; null when it fits or neither is known.
+ */
 function misfitForHello(session: DecoderSession, frame: Exclude<Frame, { type: 'HELLO' }>): string | null {
-  const loops = session.hello?.loops;
-  if (loops === undefined) return null;
-  if (frame.type === 'EDGE' && frame.loop > loops) return `EDGE loop ${frame.loop} is past the ${loops} loops the decoder announced`;
-  if (frame.type === 'TICK' && frame.bands.length !== loops) return `TICK has ${frame.bands.length} bands but the decoder announced ${loops} loops`;
+  const loops = session.hello?.loops ?? session.configuredLoops;
+  if (loops === null) return null;
+  const source = session.hello ? 'the decoder announced' : 'the config gives this decoder (no HELLO yet)';
+  if (frame.type === 'EDGE' && frame.loop > loops) return `EDGE loop ${frame.loop} is past the ${loops} loops ${source}`;
+  if (frame.type === 'TICK' && frame.bands.length !== loops) return `TICK has ${frame.bands.length} bands but ${source} ${loops} loops`;
   return null;
+}
+
+/**
+ * Puts the session's decoder time back to `decoderUs` from the latest frame on (the site step found
+ * the decoder's clock far ahead of the host's): later frames count on from there.
+ */
+export function rebaseDecoderClock(session: DecoderSession, decoderUs: number): DecoderSession {
+  if (session.lastDecoderUs === null) return session;
+  return { ...session, lastDecoderUs: decoderUs, baseUs: session.baseUs - (session.lastDecoderUs - decoderUs) };
 }
 
 /** Unwraps a raw 32-bit time against the session's anchor; the result is in `lastDecoderUs`. */
@@ -178,13 +213,14 @@ function advanceClock(session: DecoderSession, raw: number): DecoderSession {
     // Stamped a little before the previous frame: keep time monotonic and the anchor where it was.
     return { ...session, counters: { ...session.counters, lateFrames: session.counters.lateFrames + 1 } };
   }
-  // The clock started again without a HELLO: re-base like a HELLO would, forget the seq expectation.
+  // The clock started again without a HELLO: forget the seq expectation, and carry on from the last
+  // time seen. Adding the new raw time as if it had elapsed would date the loops' next events up to
+  // that far in the future and trip every one of them; how long the decoder was down is unknown.
   return {
     ...session,
     expectedSeq: null,
-    baseUs: session.lastDecoderUs,
+    baseUs: session.lastDecoderUs - raw,
     lastRawTime: raw,
-    lastDecoderUs: session.lastDecoderUs + raw,
     counters: { ...session.counters, silentRestarts: session.counters.silentRestarts + 1 },
   };
 }

@@ -1,5 +1,5 @@
 import { readFileSync } from 'node:fs';
-import { describeIssues } from '../config/loadConfig.js';
+import { describeIssues, plainIssueMessage } from '../config/plainIssues.js';
 import { readYamlMapping } from '../config/readYaml.js';
 import { ScenarioError } from './scenarioError.js';
 import { scenarioSchema, type Scenario } from './scenarioSchema.js';
@@ -8,8 +8,8 @@ import { scenarioSchema, type Scenario } from './scenarioSchema.js';
 export function parseScenario(text: string, file = '<scenario>'): Scenario {
   const read = readYamlMapping(text, 'keys decoder:, loops:, events:');
   if (!read.ok) throw new ScenarioError(file, read.problems);
-  const result = scenarioSchema.safeParse(read.value);
-  if (!result.success) throw new ScenarioError(file, describeIssues(result.error.issues));
+  const result = scenarioSchema.safeParse(read.value, { error: plainIssueMessage });
+  if (!result.success) throw new ScenarioError(file, describeIssues(result.error.issues, read.value));
   return result.data;
 }
 

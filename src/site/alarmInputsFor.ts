@@ -29,6 +29,9 @@ export function alarmInputsFor(loops: LoopsById, effect: SiteEffect, intermitten
       return [{ kind: 'clear', source: effect.decoderId, condition: 'offline' }];
     case 'decoder':
       return effect.event.kind === 'fault' ? [raiseFor(loops, effect.decoderId, null, 'decoder-fault')] : [];
+    case 'decoder-clock':
+    case 'decoder-mass-trip':
+      return [raiseFor(loops, effect.decoderId, null, 'decoder-fault')];
     case 'edge':
       return [];
     case 'loop':

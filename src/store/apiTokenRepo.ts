@@ -1,4 +1,5 @@
 import type BetterSqlite3 from 'better-sqlite3';
+import type { Statement } from 'better-sqlite3';
 import type { UserRole } from './userRepo.js';
 
 /** API tokens (table `api_tokens`): only the SHA-256 hash of a token is stored. Revoked rows are kept. */
@@ -27,37 +28,58 @@ const fromRow = (row: TokenRow): ApiTokenSummary => ({
   revokedAt: row.revoked_at === null ? null : Date.parse(row.revoked_at),
 });
 
+interface TokenStatements {
+  insert: Statement;
+  findLive: Statement;
+  findByName: Statement;
+  revoke: Statement;
+  list: Statement;
+}
+const cache = new WeakMap<BetterSqlite3.Database, TokenStatements>();
+
+/** Prepared once per connection: the live-token lookup runs on every API request. */
+function statements(db: BetterSqlite3.Database): TokenStatements {
+  let s = cache.get(db);
+  if (!s) {
+    s = {
+      insert: db.prepare(`INSERT INTO api_tokens (name, token_hash, role, created_at) VALUES (?, ?, ?, ?) ON CONFLICT DO NOTHING`),
+      findLive: db.prepare('SELECT id, name, role, created_at, revoked_at FROM api_tokens WHERE token_hash = ? AND revoked_at IS NULL'),
+      findByName: db.prepare('SELECT id, name, role, created_at, revoked_at FROM api_tokens WHERE name = ?'),
+      revoke: db.prepare('UPDATE api_tokens SET revoked_at = ? WHERE name = ? AND revoked_at IS NULL'),
+      list: db.prepare('SELECT id, name, role, created_at, revoked_at FROM api_tokens ORDER BY name'),
+    };
+    cache.set(db, s);
+  }
+  return s;
+}
+
 /** Returns null when the name is already used (by a live or a revoked token). */
 export function insertApiToken(
   db: BetterSqlite3.Database,
   token: { name: string; tokenHash: string; role: UserRole; createdAt: number },
 ): ApiTokenSummary | null {
-  const result = db
-    .prepare(`INSERT INTO api_tokens (name, token_hash, role, created_at) VALUES (?, ?, ?, ?) ON CONFLICT DO NOTHING`)
-    .run(token.name, token.tokenHash, token.role, new Date(token.createdAt).toISOString());
+  const result = statements(db).insert.run(token.name, token.tokenHash, token.role, new Date(token.createdAt).toISOString());
   if (result.changes === 0) return null;
   return { id: Number(result.lastInsertRowid), name: token.name, role: token.role, createdAt: token.createdAt, revokedAt: null };
 }
 
 export function findLiveApiTokenByHash(db: BetterSqlite3.Database, tokenHash: string): ApiTokenSummary | null {
-  const row = db
-    .prepare('SELECT id, name, role, created_at, revoked_at FROM api_tokens WHERE token_hash = ? AND revoked_at IS NULL')
-    .get(tokenHash) as TokenRow | undefined;
+  const row = statements(db).findLive.get(tokenHash) as TokenRow | undefined;
   return row ? fromRow(row) : null;
 }
 
 export function findApiTokenByName(db: BetterSqlite3.Database, name: string): ApiTokenSummary | null {
-  const row = db.prepare('SELECT id, name, role, created_at, revoked_at FROM api_tokens WHERE name = ?').get(name) as TokenRow | undefined;
+  const row = statements(db).findByName.get(name) as TokenRow | undefined;
   return row ? fromRow(row) : null;
 }
 
 /** False when no live token has this name. */
 export function revokeApiToken(db: BetterSqlite3.Database, name: string, at: number): boolean {
   return (
-    db.prepare('UPDATE api_tokens SET revoked_at = ? WHERE name = ? AND revoked_at IS NULL').run(new Date(at).toISOString(), name).changes > 0
+    statements(db).revoke.run(new Date(at).toISOString(), name).changes > 0
   );
 }
 
 export function listApiTokens(db: BetterSqlite3.Database): ApiTokenSummary[] {
-  return (db.prepare('SELECT id, name, role, created_at, revoked_at FROM api_tokens ORDER BY name').all() as TokenRow[]).map(fromRow);
+  return (statements(db).list.all() as TokenRow[]).map(fromRow);
 }

@@ -1,6 +1,7 @@
-import { mkdirSync, renameSync, rmSync, statSync } from 'node:fs';
+import { renameSync, rmSync, statSync } from 'node:fs';
 import { dirname } from 'node:path';
 import type { Store } from './openStore.js';
+import { makePrivateDir, makePrivateFile } from './privateFiles.js';
 import { StoreError, describeError } from './storeError.js';
 
 export interface BackupResult {
@@ -15,12 +16,15 @@ const ALL_REMAINING = 0x7fffffff;
 /**
  * Copies the live database with SQLite's online backup into `file`, while the daemon keeps writing.
  * Written to a temporary name and renamed, so `file` is either the old copy or a complete new one.
+ * The copy is owner-only (0600, folders made 0700) whatever the umask: it holds what the database holds.
  */
 export async function backupTo(store: Pick<Store, 'db'>, file: string): Promise<BackupResult> {
   const partial = `${file}.partial`;
   try {
-    mkdirSync(dirname(file), { recursive: true });
+    makePrivateDir(dirname(file));
     rmSync(partial, { force: true });
+    // SQLite writes into the existing empty file and keeps its mode.
+    makePrivateFile(partial);
     let lastRemaining = Number.POSITIVE_INFINITY;
     const result = await store.db.backup(partial, {
       // Chunks keep the event loop responsive. A write from another connection restarts the copy; if that

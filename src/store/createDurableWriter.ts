@@ -57,6 +57,8 @@ export interface DurableWriter {
   /** Retries the queue in order; the shell calls it on a timer every `retryMs`. Never throws. */
   flush(): FlushOutcome;
   pending(): number;
+  /** How many queued items carry each label: what a stop with the disk still failing must report. */
+  queuedLabels(): Record<string, number>;
   status(): DurableWriterStatus;
   readonly retryMs: number;
 }
@@ -130,11 +132,13 @@ export function createDurableWriter(options: DurableWriterOptions): DurableWrite
       store.transaction(run);
       return;
     }
-    store.db.pragma('synchronous = NORMAL');
+    // exec, not a statement prepared once: SQLite applies PRAGMA synchronous while compiling it, so a
+    // kept statement would change nothing when run again. exec also skips db.pragma()'s result rows.
+    store.db.exec('PRAGMA synchronous = NORMAL');
     try {
       store.transaction(run);
     } finally {
-      store.db.pragma('synchronous = FULL');
+      store.db.exec('PRAGMA synchronous = FULL');
     }
   };
 
@@ -237,6 +241,11 @@ export function createDurableWriter(options: DurableWriterOptions): DurableWrite
     },
     pending() {
       return queue.length;
+    },
+    queuedLabels() {
+      const counts: Record<string, number> = {};
+      for (const item of queue) counts[item.label] = (counts[item.label] ?? 0) + 1;
+      return counts;
     },
     status() {
       return { failing, failingSinceMs, pending: queue.length, droppedBatches };

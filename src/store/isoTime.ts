@@ -1,8 +1,27 @@
 import { StoreError } from './storeError.js';
 
-/** The store's API speaks epoch ms; its columns hold ISO 8601 UTC text, which sorts as time does. */
+/**
+ * The store's API speaks epoch ms; its columns hold ISO 8601 UTC text, which sorts as time does.
+ * Rows come in bursts within the same minute (an edge batch is a second of them), so the
+ * "YYYY-MM-DDTHH:MM:" part is formatted once per minute and only seconds and milliseconds are
+ * appended; the text is the same as toISOString gives (UTC minutes have no leap seconds in ECMAScript time).
+ */
+let minuteStartMs = Number.NaN;
+let minutePrefix = '';
+/** toISOString's plain four-digit-year form holds from year 0 to 9999. */
+const LAST_PLAIN_YEAR_MS = 253_402_300_800_000;
+
 export function toIso(ms: number): string {
-  return new Date(ms).toISOString();
+  const intoMinute = ms - minuteStartMs;
+  if (!(intoMinute >= 0 && intoMinute < 60_000 && Number.isInteger(ms))) {
+    if (!(ms >= 0 && ms < LAST_PLAIN_YEAR_MS && Number.isInteger(ms))) return new Date(ms).toISOString();
+    minuteStartMs = ms - (ms % 60_000);
+    minutePrefix = new Date(minuteStartMs).toISOString().slice(0, 17);
+    return toIso(ms);
+  }
+  const seconds = Math.floor(intoMinute / 1000);
+  const millis = intoMinute % 1000;
+  return `${minutePrefix}${seconds < 10 ? '0' : ''}${seconds}.${millis < 10 ? '00' : millis < 100 ? '0' : ''}${millis}Z`;
 }
 
 export function toIsoOrNull(ms: number | null | undefined): string | null {

@@ -1,9 +1,10 @@
-import { existsSync, mkdirSync, statSync } from 'node:fs';
+import { existsSync, statSync } from 'node:fs';
 import { dirname } from 'node:path';
 import Database from 'better-sqlite3';
 import { defaultMigrationsDir } from './packageRoot.js';
 import { readMigrations } from './readMigrations.js';
 import { StoreError, describeError } from './storeError.js';
+import { makePrivateDir, makePrivateFile, tightenIfPresent } from './privateFiles.js';
 import { uniqueSiblingPath } from './uniqueSiblingPath.js';
 
 export type SqliteDatabase = Database.Database;
@@ -41,11 +42,18 @@ export function openDatabase(path: string, options: OpenDatabaseOptions = {}): O
   const now = options.now ?? Date.now;
 
   try {
-    mkdirSync(dirname(path), { recursive: true });
+    makePrivateDir(dirname(path));
   } catch (error) {
     throw new StoreError('PW_STORE_OPEN_FAILED', `cannot create the folder for ${path}: ${describeError(error)}`, { cause: error });
   }
   const created = !existsSync(path) || statSync(path).size === 0;
+  try {
+    // Owner-only before SQLite opens it, so the -wal and -shm it creates are owner-only too.
+    makePrivateFile(path);
+    tightenIfPresent(`${path}-wal`, `${path}-shm`);
+  } catch (error) {
+    throw new StoreError('PW_STORE_OPEN_FAILED', `cannot open ${path}: ${describeError(error)}`, { cause: error });
+  }
 
   let db: SqliteDatabase;
   try {
@@ -82,6 +90,7 @@ export function openDatabase(path: string, options: OpenDatabaseOptions = {}): O
     if (target && current !== null) {
       backupFile = uniqueSiblingPath(`${path}.pre-${target.version}.bak`);
       try {
+        makePrivateFile(backupFile);
         db.prepare('VACUUM INTO ?').run(backupFile);
       } catch (error) {
         throw new StoreError(

@@ -1,11 +1,14 @@
-import { closeSync, mkdirSync, openSync, readFileSync, unlinkSync, writeSync } from 'node:fs';
+import { closeSync, openSync, readFileSync, unlinkSync, writeSync } from 'node:fs';
+import { makePrivateDir } from './privateFiles.js';
 import { dirname } from 'node:path';
 import { StoreError, describeError } from './storeError.js';
 
 /**
- * `<db>.lock` holds the pid of the process that owns the database (the daemon). Restore refuses while
- * a live process holds it; a lock left by a process that died is taken over, so a crash never leaves
- * the site unable to start.
+ * `<db>.lock` holds the pid of the process that owns the database (the daemon), the kernel's start time
+ * of that process and the database path. Restore refuses while a live process holds it; a lock left by
+ * a process that died is taken over, so a crash never leaves the site unable to start. After a power
+ * cut the pid may now belong to some other process: a holder counts only when its start time (Linux
+ * /proc/PID/stat, field 22, proc(5)) is still the one written down, i.e. it is the same process.
  */
 export interface StoreLock {
   readonly file: string;
@@ -28,15 +31,33 @@ export function readLockHolder(dbPath: string): LockHolder | null {
   } catch {
     return null;
   }
-  const pid = Number.parseInt(text.split('\n')[0] ?? '', 10);
+  const [pidText, startText] = text.split('\n');
+  const pid = Number.parseInt(pidText ?? '', 10);
   if (!Number.isInteger(pid) || pid <= 0) return { pid: 0, alive: false };
-  return { pid, alive: isProcessAlive(pid) };
+  if (!isProcessAlive(pid)) return { pid, alive: false };
+  // A reused pid: alive, but not the process that wrote the lock.
+  const recorded = startText?.trim() ?? '';
+  const current = processStartTime(pid);
+  if (recorded !== '' && current !== null && recorded !== current) return { pid, alive: false };
+  return { pid, alive: true };
+}
+
+/** The process's start time in clock ticks since boot (proc(5), /proc/PID/stat field 22); null off Linux. */
+export function processStartTime(pid: number): string | null {
+  try {
+    const stat = readFileSync(`/proc/${pid}/stat`, 'utf8');
+    // Field 2 (the command) is in parentheses and may hold spaces: count fields after its closing one.
+    const fields = stat.slice(stat.lastIndexOf(')') + 2).split(' ');
+    return fields[19] ?? null;
+  } catch {
+    return null;
+  }
 }
 
 export function acquireStoreLock(dbPath: string): StoreLock {
   const file = lockFileFor(dbPath);
   try {
-    mkdirSync(dirname(dbPath), { recursive: true });
+    makePrivateDir(dirname(dbPath));
   } catch (error) {
     throw new StoreError('PW_STORE_OPEN_FAILED', `cannot create the folder for ${dbPath}: ${describeError(error)}`, { cause: error });
   }
@@ -65,7 +86,7 @@ export function acquireStoreLock(dbPath: string): StoreLock {
       continue;
     }
     try {
-      writeSync(fd, `${process.pid}\n`);
+      writeSync(fd, `${process.pid}\n${processStartTime(process.pid) ?? ''}\n${dbPath}\n`);
     } finally {
       closeSync(fd);
     }

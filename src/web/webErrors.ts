@@ -36,6 +36,11 @@ export const WEB_ERRORS = {
     status: 429,
     template: 'too many failed sign-ins from here or for this name; wait {seconds} s and try again',
   },
+  PW_WEB_BUSY: { status: 503, template: 'the server is busy checking other sign-ins; wait {seconds} s and try again' },
+  PW_WEB_WRONG_HOST: {
+    status: 421,
+    template: 'host: "{host}" is not a name this server answers to; add it to web.allowed_hosts if it should be',
+  },
   PW_WEB_NOT_FOUND: { status: 404, template: 'no {what} has id "{id}"' },
   PW_WEB_NO_ROUTE: { status: 404, template: 'nothing here: {method} {path}' },
   PW_WEB_BAD_ACTION: { status: 409, template: '{reason}' },

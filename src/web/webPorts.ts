@@ -128,6 +128,12 @@ export interface HealthView {
 
 export interface WebReadModel {
   siteName(): string;
+  /**
+   * A number that changes whenever anything `loops()` or `alarms('active')` returns may have
+   * changed. When given, the API serialises those bodies once per version; a read side that cannot
+   * tell leaves it out and every request builds its body afresh.
+   */
+  version?(): number;
   loops(): LoopView[];
   loop(id: string): LoopDetailView | null;
   alarms(status: 'active' | 'all'): AlarmView[];
@@ -140,10 +146,17 @@ export interface WebReadModel {
 
 export type CommandResult =
   | { ok: true }
-  | { ok: false; code: 'PW_ALARM_NOT_FOUND' | 'PW_LOOP_NOT_FOUND' | 'PW_ALARM_BAD_ACTION'; message: string };
+  | { ok: false; code: 'PW_ALARM_NOT_FOUND' | 'PW_LOOP_NOT_FOUND' | 'PW_ALARM_BAD_ACTION' | 'PW_ACK_LINK_USED'; message: string };
+
+/** Spends an acknowledge link; false when it was spent already. */
+export type SpendAckLink = () => boolean;
 
 export interface WebCommands {
-  acknowledge(alarmId: number, actor: string, note: string | null): CommandResult;
+  /**
+   * With `spendLink`, the link is spent inside the transaction that records the acknowledgement, and
+   * only if the acknowledgement is accepted (a refused one leaves the link usable).
+   */
+  acknowledge(alarmId: number, actor: string, note: string | null, spendLink?: SpendAckLink): CommandResult;
   shelve(alarmId: number, actor: string, minutes: number, reason: string): CommandResult;
   unshelve(alarmId: number, actor: string): CommandResult;
   takeOutOfService(loopId: string, actor: string, note: string): CommandResult;

@@ -34,10 +34,13 @@ describe('policiesFromConfig', () => {
     expect(policies['trouble']).toEqual({ name: 'trouble', steps: [{ afterMs: 300_000, contactIds: ['office'] }], repeatEveryMs: null, maxRepeats: 10 });
   });
 
-  it('treats a zero repeat interval as no repeats rather than a flood', () => {
+  it('never floods on a zero repeat interval: the config refuses it, and the policy would read it as no repeats', () => {
     const raw = parse(ISSUE_EXAMPLE_YAML) as { escalation: { default: Record<string, unknown> } };
     raw.escalation.default['repeat_every'] = '0s';
-    expect(policiesFromConfig(siteConfigSchema.parse(raw))['default']?.repeatEveryMs).toBeNull();
+    expect(siteConfigSchema.safeParse(raw).success).toBe(false);
+    const parsed = siteConfigSchema.parse(parse(ISSUE_EXAMPLE_YAML));
+    parsed.escalation['default']!.repeat_every = 0;
+    expect(policiesFromConfig(parsed)['default']?.repeatEveryMs).toBeNull();
   });
 });
 

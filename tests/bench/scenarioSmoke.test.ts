@@ -4,10 +4,12 @@ import { run as api } from '../../bench/api.bench.js';
 import type { BenchResult, BenchScenario } from '../../bench/benchTypes.js';
 import { BENCH_NAMES } from '../../bench/benchTypes.js';
 import { run as detection } from '../../bench/detection.bench.js';
+import { run as firmware } from '../../bench/firmware.bench.js';
 import { run as ingest } from '../../bench/ingest.bench.js';
 import { SCENARIOS } from '../../bench/scenarios.js';
 import { run as soak } from '../../bench/soak.bench.js';
 import { run as store } from '../../bench/store.bench.js';
+import { run as estate } from '../../bench/estate.bench.js';
 
 /**
  * Runs every benchmark scenario in its smoke mode, in-process, so the benches cannot rot. Only the
@@ -20,6 +22,8 @@ const scenarios: Array<[string, BenchScenario]> = [
   ['alarm-to-mail', alarmToMail],
   ['api', api],
   ['soak', soak],
+  ['estate', estate],
+  ['firmware', firmware],
 ];
 
 function expectWellFormed(result: BenchResult, name: string): void {

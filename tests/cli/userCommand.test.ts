@@ -33,7 +33,7 @@ describe('pairwatch user', () => {
   });
 
   it('lists, changes the password and role, and removes', async () => {
-    await user(['add', 'meg', '--role', 'viewer', '--password-stdin'], 'first-password\n');
+    await user(['add', 'meg', '--role', 'viewer', '--password-stdin'], 'first-long-password\n');
     const list = await user(['list']);
     expect(list.stdout).toMatch(/^NAME\s+ROLE\s+CREATED \(UTC\)\nmeg\s+viewer\s+\d{4}-/);
     expect((await user(['passwd', 'meg', '--password-stdin'], 'second-password\n')).code).toBe(0);
@@ -46,16 +46,16 @@ describe('pairwatch user', () => {
   });
 
   it('says plainly what is wrong, with exit codes 1 (failed) and 2 (usage)', async () => {
-    await user(['add', 'meg', '--role', 'viewer', '--password-stdin'], 'first-password\n');
+    await user(['add', 'meg', '--role', 'viewer', '--password-stdin'], 'first-long-password\n');
     const cases: Array<[string[], string, number, RegExp]> = [
       [['add', 'meg', '--role', 'viewer', '--password-stdin'], 'another-password\n', 1, /exists already/],
-      [['add', 'tom', '--role', 'boss', '--password-stdin'], 'x-password\n', 2, /--role "boss" is not one of viewer, operator, admin/],
-      [['add', 'tom', '--password-stdin'], 'x-password\n', 2, /--role is needed/],
-      [['add', 'tom', '--role', 'viewer', '--password-stdin'], 'short\n', 2, /at least 8 characters/],
+      [['add', 'tom', '--role', 'boss', '--password-stdin'], 'x-long-enough-password\n', 2, /--role "boss" is not one of viewer, operator, admin/],
+      [['add', 'tom', '--password-stdin'], 'x-long-enough-password\n', 2, /--role is needed/],
+      [['add', 'tom', '--role', 'viewer', '--password-stdin'], 'fourteen-chars\n', 2, /at least 15 characters/],
       [['add', 'tom', '--role', 'viewer'], '', 2, /--password-stdin/],
-      [['add', 'mail-link', '--role', 'viewer', '--password-stdin'], 'x-password\n', 2, /reserved/],
-      [['add', 'bad name', '--role', 'viewer', '--password-stdin'], 'x-password\n', 2, /NAME must be/],
-      [['passwd', 'ghost', '--password-stdin'], 'x-password\n', 1, /no user is named "ghost"/],
+      [['add', 'mail-link', '--role', 'viewer', '--password-stdin'], 'x-long-enough-password\n', 2, /reserved/],
+      [['add', 'bad name', '--role', 'viewer', '--password-stdin'], 'x-long-enough-password\n', 2, /NAME must be/],
+      [['passwd', 'ghost', '--password-stdin'], 'x-long-enough-password\n', 1, /no user is named "ghost"/],
       [['remove', 'ghost'], '', 1, /no user is named "ghost"/],
       [['frobnicate'], '', 2, /usage:/],
     ];

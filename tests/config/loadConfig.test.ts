@@ -31,7 +31,7 @@ describe('config loading', () => {
     expect(loop.open_ms).toBe(200);
     expect(loop.latch_alarms).toBe(true);
     expect(loop.latch_trouble).toBe(false);
-    expect(config.decoders[0]!.baud).toBe(115200);
+    expect(config.decoders[0]!.baud).toBe(250000); // the decoder firmware's exact U2X rate (README, "The decoder firmware")
     expect(config.decoders[0]!.silence).toBe(2000);
     expect(config.mail.group_window).toBe(10_000);
     expect(config.storage.retention.edges).toBe(6 * 3600_000);

@@ -113,6 +113,16 @@ describe('deploy/install.sh into a scratch root (DESTDIR)', () => {
     expect(snapshot(root)).toEqual(before);
   });
 
+  it('ends with next steps that include adding someone to sign in as (user add)', () => {
+    const source = sourceTree();
+    const root = tempDir('pw-root-next-');
+    const { code, out } = run('install.sh', source, root);
+    expect(code).toBe(0);
+    const next = out.slice(out.indexOf('Next:'));
+    expect(next).toMatch(/pairwatch user add \S+ --role admin --config \/etc\/pairwatch\/site\.yaml/);
+    expect(next).toMatch(/pairwatch check-config \/etc\/pairwatch\/site\.yaml/);
+  });
+
   it('never overwrites an edited config, env file or udev rule, yet updates the app', () => {
     const source = sourceTree();
     const root = tempDir('pw-root-');

@@ -79,6 +79,17 @@ describe('deploy/pairwatch.service', () => {
     expect(unit.get('Install')!.get('WantedBy')).toEqual(['multi-user.target']);
   });
 
+  it('gives the daemon room for files: LimitNOFILE well above the web connection cap plus what the alarm path keeps (issue 9)', async () => {
+    const { siteConfigSchema } = await import('../../src/config/schema.js');
+    const { webConnectionCap } = await import('../../src/web/buildWebServer.js');
+    const limit = Number(readUnit(readFileSync(UNIT, 'utf8')).get('Service')!.get('LimitNOFILE')?.[0]);
+    expect(Number.isInteger(limit)).toBe(true);
+    const defaults = siteConfigSchema.shape.web.parse(undefined);
+    // At the unit's limit the default cap applies unchanged, and leaves files for mail, database and decoders.
+    expect(webConnectionCap(defaults.max_connections, limit)).toBe(defaults.max_connections);
+    expect(limit - defaults.max_connections).toBeGreaterThanOrEqual(64);
+  });
+
   it('names the escaped device unit correctly in its comment', () => {
     // systemd.unit(5) path escaping: "/" becomes "-", a literal "-" becomes \x2d; systemd-escape does it.
     const escaped = execFileSync('systemd-escape', ['-p', '/dev/pairwatch-decoder-main'], { encoding: 'utf8' }).trim();

@@ -13,6 +13,7 @@ import { seedApiToken } from './fixtures/apiClient.js';
 import { readCommitted, type Committed } from './fixtures/dbSnapshot.js';
 import { faultSiteYaml, loopIdOf } from './fixtures/siteYaml.js';
 import { startSmtpCounter, type SmtpCounter } from './fixtures/smtpCounter.js';
+import { skipForMachine } from '../helpers/machineSkip.js';
 
 /**
  * The disk under the database fills up while the monitor runs, and is freed again later. A real full
@@ -213,14 +214,14 @@ afterAll(async () => {
 
 describe('storage failure: the disk under the database fills up, then has room again', () => {
   it('the disk really filled: SQLite reported it and the monitor noticed', (ctx) => {
-    if (mountProblem) ctx.skip(mountProblem);
+    if (mountProblem) skipForMachine(ctx, mountProblem);
     expect(observed.failingAtMs, 'writes started failing').not.toBeNull();
     expect(monitor!.writer.status().failing).toBeNull();
     expect(observed.during!.pendingWrites).toBeGreaterThan(0);
   });
 
   it('keeps classifying in memory and answering the web while it cannot write', (ctx) => {
-    if (mountProblem) ctx.skip(mountProblem);
+    if (mountProblem) skipForMachine(ctx, mountProblem);
     const during = observed.during!;
     expect(during.loopStates).toEqual({ [loopIdOf(1)]: 'healthy', [loopIdOf(2)]: 'tripped', [loopIdOf(3)]: 'open', [loopIdOf(4)]: 'healthy' });
     expect(during.apiLoopsStatus).toBe(200);
@@ -230,7 +231,7 @@ describe('storage failure: the disk under the database fills up, then has room a
   });
 
   it('raises "storage failing" on /healthz and the alarm list, and clears it when writing resumes', (ctx) => {
-    if (mountProblem) ctx.skip(mountProblem);
+    if (mountProblem) skipForMachine(ctx, mountProblem);
     const during = observed.during!;
     expect(during.activeConditions).toContain('system/storage-failing');
     expect(during.health.status).toBe(503);
@@ -246,7 +247,7 @@ describe('storage failure: the disk under the database fills up, then has room a
   });
 
   it('loses nothing: what was stored before stays, and everything accepted while full is written after', (ctx) => {
-    if (mountProblem) ctx.skip(mountProblem);
+    if (mountProblem) skipForMachine(ctx, mountProblem);
     const before = observed.beforeFill;
     const after = observed.afterRecovery!;
     expect(observed.quickCheck).toBe('ok');
@@ -271,7 +272,7 @@ describe('storage failure: the disk under the database fills up, then has room a
   });
 
   it('tells someone by mail while the disk is still full (mail is a channel that still works)', (ctx) => {
-    if (mountProblem) ctx.skip(mountProblem);
+    if (mountProblem) skipForMachine(ctx, mountProblem);
     // Issue 5: "raises the system trouble 'storage failing' through every channel that still works".
     // The SMTP server is up throughout; only the disk is full.
     expect(observed.during!.mailsAboutStorage, 'mails about storage failing received while the disk was full').toBeGreaterThan(0);

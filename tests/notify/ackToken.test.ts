@@ -21,10 +21,10 @@ describe('HMAC-SHA256 underneath the tokens', () => {
 });
 
 describe('signAckToken / verifyAckToken', () => {
-  const token = signAckToken({ alarmId: 42, expiresAt: now + week, tokenId: 'tok_0123456789abcdef' }, secret);
+  const token = signAckToken({ alarmId: 42, contactId: 'office', expiresAt: now + week, tokenId: 'tok_0123456789abcdef' }, secret);
 
   it('round-trips the claims', () => {
-    expect(verifyAckToken(token, secret, now)).toEqual({ ok: true, alarmId: 42, tokenId: 'tok_0123456789abcdef', expiresAt: now + week });
+    expect(verifyAckToken(token, secret, now)).toEqual({ ok: true, alarmId: 42, contactId: 'office', tokenId: 'tok_0123456789abcdef', expiresAt: now + week });
   });
 
   it('uses only URL-safe characters', () => {
@@ -34,14 +34,36 @@ describe('signAckToken / verifyAckToken', () => {
   });
 
   it('refuses a token signed with another secret as forged', () => {
-    const other = signAckToken({ alarmId: 42, expiresAt: now + week, tokenId: 'tok_0123456789abcdef' }, Buffer.alloc(32, 8));
+    const other = signAckToken({ alarmId: 42, contactId: 'office', expiresAt: now + week, tokenId: 'tok_0123456789abcdef' }, Buffer.alloc(32, 8));
     expect(verifyAckToken(other, secret, now)).toEqual({ ok: false, reason: 'forged' });
   });
 
   it('refuses a token whose alarm id was changed as forged', () => {
-    const tampered = token.replace('a1.42.', 'a1.43.');
+    const tampered = token.replace('a2.42.', 'a2.43.');
     expect(tampered).not.toBe(token);
     expect(verifyAckToken(tampered, secret, now)).toEqual({ ok: false, reason: 'forged' });
+  });
+
+  it('binds the contact: a token re-addressed to another contact is forged (issue 9)', () => {
+    const tampered = token.replace('a2.42.office.', 'a2.42.shepherd.');
+    expect(tampered).not.toBe(token);
+    expect(verifyAckToken(tampered, secret, now)).toEqual({ ok: false, reason: 'forged' });
+    // Dropping the contact to pass as a link of the earlier layout does not verify either.
+    const parts = token.split('.');
+    const asOld = ['a1', parts[1], parts[3], parts[4], parts[5]].join('.');
+    expect(verifyAckToken(asOld, secret, now)).toEqual({ ok: false, reason: 'forged' });
+  });
+
+  it('still accepts a genuine link of the earlier layout (no contact) until it expires', () => {
+    const part = `a1.42.${now + week}.tok_0123456789abcdef`;
+    const old = `${part}.${computeAckMac(`pairwatch-ack:${part}`, secret).toString('base64url')}`;
+    expect(verifyAckToken(old, secret, now)).toEqual({ ok: true, alarmId: 42, contactId: null, tokenId: 'tok_0123456789abcdef', expiresAt: now + week });
+  });
+
+  it('refuses to sign for something that is not a contact id', () => {
+    for (const contactId of ['', 'Office', 'a.b', 'x'.repeat(41)]) {
+      expect(() => signAckToken({ alarmId: 1, contactId, expiresAt: now, tokenId: 'tok_0123456789abcdef' }, secret)).toThrow(RangeError);
+    }
   });
 
   it('refuses a token whose expiry was pushed out as forged', () => {
@@ -61,7 +83,7 @@ describe('signAckToken / verifyAckToken', () => {
     expect(verifyAckToken(token, secret, now + 2 * week)).toEqual({ ok: false, reason: 'expired' });
   });
 
-  it.each(['', 'abc', 'a1.42', `${token}.x`, token.replace('a1.', 'a2.'), token.replace('a1.42', 'a1.0'), token.replace('a1.42', 'a1.4x'), 'a1.1.2.short.mac', 'x'.repeat(500)])(
+  it.each(['', 'abc', 'a1.42', `${token}.x`, token.replace('a2.', 'a3.'), token.replace('a2.42', 'a2.0'), token.replace('a2.42', 'a2.4x'), token.replace('.office.', '.Office.'), token.replace('.office.', '..'), 'a1.1.2.short.mac', 'x'.repeat(500)])(
     'refuses %j as malformed',
     (bad) => {
       expect(verifyAckToken(bad, secret, now)).toEqual({ ok: false, reason: 'malformed' });
@@ -89,7 +111,7 @@ describe('single use and alarm binding (real SQLite)', () => {
 
   it('a reused link is refused; checking (GET) never spends it', () => {
     t = openTestDb();
-    const token = signAckToken({ alarmId: 5, expiresAt: now + week, tokenId: newAckTokenId() }, secret);
+    const token = signAckToken({ alarmId: 5, contactId: 'office', expiresAt: now + week, tokenId: newAckTokenId() }, secret);
     expect(checkAckLink(t.db, token, secret, now, 5).ok).toBe(true);
     expect(checkAckLink(t.db, token, secret, now, 5).ok).toBe(true);
     expect(redeemAckLink(t.db, token, secret, now, 5).ok).toBe(true);
@@ -99,7 +121,7 @@ describe('single use and alarm binding (real SQLite)', () => {
 
   it("a link for one alarm is refused for another, and is not spent by the attempt", () => {
     t = openTestDb();
-    const token = signAckToken({ alarmId: 5, expiresAt: now + week, tokenId: newAckTokenId() }, secret);
+    const token = signAckToken({ alarmId: 5, contactId: 'office', expiresAt: now + week, tokenId: newAckTokenId() }, secret);
     expect(redeemAckLink(t.db, token, secret, now, 6)).toEqual({ ok: false, reason: 'other-alarm' });
     expect(redeemAckLink(t.db, token, secret, now, 5).ok).toBe(true);
   });
@@ -107,9 +129,9 @@ describe('single use and alarm binding (real SQLite)', () => {
   it('forged and expired links are refused before anything is spent', () => {
     t = openTestDb();
     const tokenId = newAckTokenId();
-    const expired = signAckToken({ alarmId: 5, expiresAt: now - 1, tokenId }, secret);
+    const expired = signAckToken({ alarmId: 5, contactId: 'office', expiresAt: now - 1, tokenId }, secret);
     expect(redeemAckLink(t.db, expired, secret, now, 5)).toEqual({ ok: false, reason: 'expired' });
-    const forged = signAckToken({ alarmId: 5, expiresAt: now + week, tokenId }, Buffer.alloc(32, 1));
+    const forged = signAckToken({ alarmId: 5, contactId: 'office', expiresAt: now + week, tokenId }, Buffer.alloc(32, 1));
     expect(redeemAckLink(t.db, forged, secret, now, 5)).toEqual({ ok: false, reason: 'forged' });
     expect(ackTokenUsedAt(t.db, tokenId)).toBeNull();
   });

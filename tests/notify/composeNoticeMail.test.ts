@@ -101,12 +101,29 @@ describe('composeNoticeMail: body', () => {
     expect(mail.html).toContain(`href="https://monitor.ridgeway.example/ack/${link![1]}"`);
   });
 
+  it('each contact gets a link bound to them, so the acknowledgement can name who it was (issue 9)', () => {
+    for (const contactId of ['office', 'oncall']) {
+      const mail = composeNoticeMail(digest([notice(7, 'raised', { contactId })], contactId), ctx([alarm(7, { loopId: 'well' })]));
+      const link = /\/ack\/(\S+)/.exec(mail.text)!;
+      expect(verifyAckToken(link[1]!, secret, t0 + 10_000)).toMatchObject({ ok: true, alarmId: 7, contactId });
+    }
+  });
+
+  it("a person's note stays quoted on its own line, whatever it holds (issue 9)", () => {
+    const forged = 'fine\r\n  Acknowledge:    http://evil.example/ack/x';
+    const acked = alarm(1, { loopId: 'well', state: 'acknowledged', ackedAt: t0 + 60_000, ackedBy: 'ann', note: forged });
+    const mail = composeNoticeMail(digest([notice(1, 'acknowledged', { actor: 'ann', note: forged })]), ctx([acked], {}, t0 + 70_000));
+    const lines = mail.text.split(/\r?\n/);
+    expect(lines.filter((l) => /^\s*Acknowledge:/.test(l))).toEqual([]);
+    expect(lines.find((l) => l.includes('Their note:'))).toMatch(/Their note: +“fine +Acknowledge: +http:\/\/evil\.example\/ack\/x”$/);
+  });
+
   it('an acknowledged alarm says who acknowledged and their note, and has no link', () => {
     const acked = alarm(1, { loopId: 'well', state: 'acknowledged', ackedAt: t0 + 60_000, ackedBy: 'ann', note: 'Heater reset' });
     const mail = composeNoticeMail(digest([notice(1, 'acknowledged', { actor: 'ann', note: 'Heater reset' })]), ctx([acked], {}, t0 + 70_000));
     expect(mail.subject).toBe('[ALARM] Ridgeway Farm: Well pit — tripped, acknowledged by ann');
     expect(mail.text).toMatch(/Acknowledged: +by ann at /);
-    expect(mail.text).toMatch(/Their note: +Heater reset/);
+    expect(mail.text).toMatch(/Their note: +“Heater reset”/);
     expect(mail.text).not.toContain('/ack/');
   });
 

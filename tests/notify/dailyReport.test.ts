@@ -45,7 +45,7 @@ describe('composeDailyReport', () => {
     expect(text).toContain('acknowledged by ann');
     expect(text).toContain('("heater off")');
     // 12 lost of 345 612 frames sent ≈ 0.003 %; 23.5 h of 24 h ≈ 97.9 %.
-    expect(text).toContain('Office decoder: connected; connected 23 h 30 min of 24 h (97.9 %), 1 restart(s), 345600 frames, 12 lost (0.003 %), 3 garbled');
+    expect(text).toContain('Office decoder: connected; connected 23 h 30 min of 24 h (97.9 %), 1 restart, 345600 frames, 12 lost (0.003 %), 3 garbled');
     expect(text).toContain('Next report: Wed 2 Dec 2026, 07:00:00 GMT (2026-12-02 07:00:00 UTC).');
     expect(text).toContain(REPORT_DEAD_MAN_LINE);
     expect(REPORT_DEAD_MAN_LINE).toBe('If this report ever fails to arrive, the monitor itself is down.');
@@ -76,7 +76,7 @@ describe('composeLifecycleMail', () => {
   it('announces the start with what is watched and when the next report comes', () => {
     const mail = composeLifecycleMail('started', lifecycle, envelope());
     expect(mail.subject).toBe('[SYSTEM] Ridgeway Farm: monitoring started');
-    expect(mail.text).toContain('It watches 3 loop(s) on 1 decoder(s).');
+    expect(mail.text).toContain('It watches 3 loops on 1 decoder.');
     expect(mail.text).toContain('The next daily report is due Tue 1 Dec 2026, 08:00:00 GMT');
     expect(mail.priority).toBe('system');
   });

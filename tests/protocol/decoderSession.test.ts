@@ -162,6 +162,32 @@ describe('decoder session: sequence numbers', () => {
     expect(sessionCounters(session).lost).toBe(4);
   });
 
+  it('the same line twice (seq of the frame before) is a duplicate: dropped and counted, not 65 535 lost', () => {
+    const { session, events } = run(['TICK 10 100 N', 'TICK 11 200 N', 'TICK 11 200 N', 'TICK 12 300 N']);
+    expect(sessionCounters(session).lost).toBe(0);
+    expect(sessionCounters(session).duplicates).toBe(1);
+    expect(sessionCounters(session).frames).toBe(3);
+    expect(events.map((e) => e.kind)).toEqual(['tick', 'tick', 'tick']);
+  });
+
+  it('a seq far behind, with the clock going on, is a restart (no lost count, the seq expectation starts afresh)', () => {
+    const { session, events } = run(['TICK 500 100 N', 'TICK 501 200 N', 'TICK 3 300 N', 'TICK 4 400 N']);
+    expect(events[2]).toEqual({ kind: 'fault', code: 'RESTART', decoderUs: 300 });
+    expect(sessionCounters(session).silentRestarts).toBe(1);
+    expect(sessionCounters(session).lost).toBe(0);
+  });
+
+  it('without a HELLO, a TICK or EDGE that does not fit the configured inputs is dropped as range', () => {
+    let session = initialDecoderSession(8);
+    for (const body of ['TICK 0 100 NNNNNNNNNNNN', 'EDGE 1 200 9 H', 'TICK 2 300 NNNNNNNN']) session = stepDecoderSession(session, refLine(body)).session;
+    expect(sessionCounters(session).droppedBy.range).toBe(2);
+    expect(sessionCounters(session).frames).toBe(1);
+    // A HELLO's own count wins over the config's.
+    session = stepDecoderSession(session, refLine('HELLO 1 12 fw')).session;
+    session = stepDecoderSession(session, refLine('TICK 0 100 NNNNNNNNNNNN')).session;
+    expect(sessionCounters(session).frames).toBe(3);
+  });
+
   it('after HELLO the sequence starts again at 0', () => {
     const { session } = run(['TICK 900 1 N', 'HELLO 1 1 fw', 'TICK 0 5 N', 'TICK 1 6 N']);
     expect(sessionCounters(session).lost).toBe(0);
@@ -200,10 +226,12 @@ describe('decoder session: time unwrap', () => {
     expect(sessionCounters(session).lateFrames).toBe(1);
   });
 
-  it('a clock jump back without HELLO is a missed restart: reported, and time still moves forward', () => {
+  it('a clock jump back without HELLO is a missed restart: reported, time carries on from the last value (none invented)', () => {
     const { events, session } = run(['TICK 700 90000000 N', 'TICK 0 100 N', 'TICK 1 200 N']);
-    expect(events[1]).toEqual({ kind: 'fault', code: 'RESTART', decoderUs: 90000100 });
-    expect(times(events)).toEqual([90000000, 90000100, 90000100, 90000200]);
+    expect(events[1]).toEqual({ kind: 'fault', code: 'RESTART', decoderUs: 90000000 });
+    // Issue 16 item 2: adding the new raw 100 µs as elapsed was harmless here, but a raw time of
+    // minutes after a silent restart dated every loop's next event minutes ahead and tripped them all.
+    expect(times(events)).toEqual([90000000, 90000000, 90000000, 90000100]);
     expect(sessionCounters(session).silentRestarts).toBe(1);
     expect(sessionCounters(session).lost).toBe(0);
   });

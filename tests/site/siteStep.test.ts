@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/loopSettings.js';
 import { indexSite, initialSiteState, stepSite } from '../../src/site/siteStep.js';
 import type { SiteEffect, SiteState } from '../../src/site/siteTypes.js';
+import { encodeLine } from '../../src/protocol/encodeLine.js';
 import { wireScript } from '../helpers/wireScript.js';
 
 const HOST_START = Date.UTC(2026, 11, 1, 6, 0, 0);
@@ -101,5 +102,68 @@ describe('site step: decoder lines to loop states', () => {
       for (const e of step.effects) if (e.kind === 'loop') fast.push([e.loopId, e.effect]);
     }
     expect(fast).toEqual(slow);
+  });
+});
+
+describe('site step: decoder clock against host clock, and mass trips (issue 16)', () => {
+  const checked = indexSite({ ...index.definition, decoderClockAheadMs: 2000 });
+  const feedChecked = (lines: Array<{ atUs: number; line: string; hostUs?: number }>) => {
+    let state = initialSiteState(checked.definition, HOST_START);
+    const effects: SiteEffect[] = [];
+    for (const { atUs, line, hostUs } of lines) {
+      const step = stepSite(checked, state, { kind: 'line', decoderId: 'main', line }, HOST_START + (hostUs ?? atUs) / 1000);
+      state = step.state;
+      effects.push(...step.effects);
+    }
+    return { state, effects };
+  };
+
+  it('a frame stamped 20 s ahead of the host is a decoder-clock fault: not applied, loops start over, no trip', () => {
+    const lines = wireScript(2).hello(0).pulses(1, 100_000, 5_000_000).pulses(2, 150_000, 5_000_000).ticks(0, 5_000_000).build();
+    const jumped = { atUs: 25_200_000, hostUs: 5_200_000, line: encodeLine(`TICK ${lines.length - 1} 25200000 NN`).replace(/\n$/, '') };
+    const { effects } = feedChecked([...lines, jumped]);
+    const clock = effects.filter((e) => e.kind === 'decoder-clock');
+    expect(clock).toEqual([{ kind: 'decoder-clock', decoderId: 'main', atMs: HOST_START + 5200, aheadMs: expect.any(Number) }]);
+    expect((clock[0] as { aheadMs: number }).aheadMs).toBeGreaterThanOrEqual(19_000);
+    expect(stateChanges(effects).filter((c) => c.to === 'tripped')).toEqual([]);
+    expect(stateChanges(effects).slice(-2).map((c) => c.to)).toEqual(['unknown', 'unknown']);
+  });
+
+  it('without decoderClockAheadMs nothing is checked (replays faster than real time)', () => {
+    const lines = wireScript(2).hello(0).ticks(0, 5_000_000).build();
+    const { effects } = feed(lines.map((l) => ({ ...l, atUs: 0 })));
+    expect(effects.some((e) => e.kind === 'decoder-clock')).toBe(false);
+  });
+
+  it('both loops tripping on one frame are held back for the window, then become one decoder-mass-trip', () => {
+    // Pulses in step, so both trip deadlines pass on the same TICK (as after an ingest gap).
+    // Up to 6 s: the loops start over at 5.2 s and would trip again (believed then) only at 6.9 s.
+    const lines = wireScript(2).hello(0).pulses(1, 100_000, 3_000_000).pulses(2, 100_000, 3_000_000).ticks(0, 6_000_000).build();
+    const { effects } = feed(lines);
+    expect(stateChanges(effects).filter((c) => c.to === 'tripped')).toEqual([]);
+    const mass = effects.filter((e) => e.kind === 'decoder-mass-trip');
+    expect(mass).toHaveLength(1);
+    // The loops' way to unknown is told from the state the shell last heard (healthy), not from the held trip.
+    const after = effects.slice(effects.indexOf(mass[0]!) + 1).filter((e) => e.kind === 'loop' && e.effect.kind === 'state');
+    expect(after.map((e) => (e.kind === 'loop' && e.effect.kind === 'state' ? [e.effect.from, e.effect.to] : null))).toEqual([
+      ['healthy', 'unknown'],
+      ['healthy', 'unknown'],
+    ]);
+  });
+
+  it('one loop tripping alone is never delayed', () => {
+    const lines = wireScript(2).hello(0).pulses(1, 100_000, 3_000_000).pulses(2, 150_000, 8_000_000).ticks(0, 8_000_000).build();
+    let state = initialSiteState(index.definition, HOST_START);
+    for (const { atUs, line } of lines) {
+      const step = stepSite(index, state, { kind: 'line', decoderId: 'main', line }, HOST_START + atUs / 1000);
+      state = step.state;
+      const trip = step.effects.find((e) => e.kind === 'loop' && e.effect.kind === 'state' && e.effect.to === 'tripped');
+      if (trip) {
+        // Reported in the very step whose frame showed it, dated by decoder time.
+        expect(HOST_START + atUs / 1000 - trip.atMs).toBeLessThanOrEqual(250);
+        return;
+      }
+    }
+    throw new Error('loop 1 never tripped');
   });
 });

@@ -9,6 +9,7 @@ import { openStore, type Store } from '../../src/store/openStore.js';
 import type { StorageFailure } from '../../src/store/storageFailure.js';
 import { makeTempDir } from '../helpers/tempDir.js';
 import { T0 } from './storeTestKit.js';
+import { skipForMachine } from '../helpers/machineSkip.js';
 
 /** Records every callback, with a fake clock the test moves by hand. */
 function harness(store: Store, extra: Partial<DurableWriterOptions> = {}) {
@@ -149,7 +150,7 @@ describe('createDurableWriter against a real full disk (a 2 MB tmpfs)', () => {
   });
 
   it('queues while the disk is full, raises failing once, and loses nothing once space returns', (ctx) => {
-    if (mounted !== null) ctx.skip(`skipped: ${mounted}; the injected-error tests above still cover the queue`);
+    if (mounted !== null) skipForMachine(ctx, `${mounted}; the injected-error tests above still cover the queue`);
     store = openStore({ path: join(mountDir, 'pairwatch.db') });
     const { writer, calls, advance } = harness(store);
     const edgeBatch = (i: number): EdgeRow[] =>
@@ -220,7 +221,7 @@ describe('createDurableWriter against files made unwritable (chattr +i on the da
         execFileSync('chattr', ['+i', ...files], { stdio: 'pipe' });
         locked = true;
       } catch (error) {
-        ctx.skip(`skipped: chattr +i is not permitted here (${String((error as { stderr?: Buffer }).stderr ?? error).trim()})`);
+        skipForMachine(ctx, `chattr +i is not permitted here (${String((error as { stderr?: Buffer }).stderr ?? error).trim()})`);
       }
       expect(writer.commit('c1', change(1))).toBe('queued');
       expect(writer.commit('c2', change(2))).toBe('queued');

@@ -5,9 +5,17 @@ import { pathToFileURL } from 'node:url';
 import Database from 'better-sqlite3';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { openDatabase } from '../../src/store/openDatabase.js';
+import { readMigrations } from '../../src/store/readMigrations.js';
 import { defaultMigrationsDir, findPackageRoot } from '../../src/store/packageRoot.js';
 import { isStoreError } from '../../src/store/storeError.js';
 import { makeTempDir } from '../helpers/tempDir.js';
+
+// Numbers relative to the shipped migrations, so a new one in migrations/ does not break these tests.
+const SHIPPED = readMigrations(defaultMigrationsDir());
+const LATEST = SHIPPED.at(-1)!.version;
+const NEXT = LATEST + 1;
+const NEXT_NAME = String(NEXT).padStart(3, '0');
+const FUTURE = LATEST + 7;
 
 const sha256 = (file: string): string => createHash('sha256').update(readFileSync(file)).digest('hex');
 
@@ -28,7 +36,7 @@ describe('openDatabase', () => {
     // A private copy of the real migrations, so tests can add a newer one.
     migrationsDir = join(tmp.dir, 'migrations');
     mkdirSync(migrationsDir);
-    for (const name of readdirSync(defaultMigrationsDir())) copyFileSync(join(defaultMigrationsDir(), name), join(migrationsDir, name));
+    for (const name of readdirSync(defaultMigrationsDir()).filter((n) => n.endsWith('.sql'))) copyFileSync(join(defaultMigrationsDir(), name), join(migrationsDir, name));
   });
   afterEach(() => tmp.cleanup());
 
@@ -38,7 +46,7 @@ describe('openDatabase', () => {
     try {
       expect(created).toBe(true);
       expect(backupFile).toBeNull();
-      expect(applied).toEqual([1, 2]);
+      expect(applied).toEqual(SHIPPED.map((m) => m.version));
       // Values per the SQLite PRAGMA documentation: auto_vacuum 2 = INCREMENTAL, synchronous 2 = FULL.
       expect(db.pragma('auto_vacuum', { simple: true })).toBe(2);
       expect(db.pragma('journal_mode', { simple: true })).toBe('wal');
@@ -58,12 +66,11 @@ describe('openDatabase', () => {
     const again = openDatabase(path, { migrationsDir });
     try {
       expect(again.applied).toEqual([]);
-      expect(again.schemaVersion).toBe(2);
+      expect(again.schemaVersion).toBe(LATEST);
       expect(again.backupFile).toBeNull();
-      expect(again.db.prepare('SELECT version, name, applied_at FROM schema_migrations ORDER BY version').all()).toEqual([
-        { version: 1, name: '001_core.sql', applied_at: '2026-01-01T00:00:00.000Z' },
-        { version: 2, name: '002_store.sql', applied_at: '2026-01-01T00:00:00.000Z' },
-      ]);
+      expect(again.db.prepare('SELECT version, name, applied_at FROM schema_migrations ORDER BY version').all()).toEqual(
+        SHIPPED.map((m) => ({ version: m.version, name: m.name, applied_at: '2026-01-01T00:00:00.000Z' })),
+      );
     } finally {
       again.db.close();
     }
@@ -75,19 +82,19 @@ describe('openDatabase', () => {
     first.db.prepare("INSERT INTO kv (key, value) VALUES ('site', 'Larch Hollow')").run();
     first.db.close();
 
-    writeFileSync(join(migrationsDir, '003_extra.sql'), 'CREATE TABLE extra_notes (id INTEGER PRIMARY KEY, body TEXT);');
+    writeFileSync(join(migrationsDir, `${NEXT_NAME}_extra.sql`), 'CREATE TABLE extra_notes (id INTEGER PRIMARY KEY, body TEXT);');
     const second = openDatabase(path, { migrationsDir });
     try {
-      expect(second.applied).toEqual([3]);
-      expect(second.backupFile).toBe(`${path}.pre-3.bak`);
+      expect(second.applied).toEqual([NEXT]);
+      expect(second.backupFile).toBe(`${path}.pre-${NEXT}.bak`);
       expect(second.db.prepare("SELECT value FROM kv WHERE key = 'site'").pluck().get()).toBe('Larch Hollow');
     } finally {
       second.db.close();
     }
-    const backup = new Database(`${path}.pre-3.bak`, { readonly: true });
+    const backup = new Database(`${path}.pre-${NEXT}.bak`, { readonly: true });
     try {
       expect(backup.prepare("SELECT value FROM kv WHERE key = 'site'").pluck().get()).toBe('Larch Hollow');
-      expect(backup.prepare('SELECT max(version) FROM schema_migrations').pluck().get()).toBe(2);
+      expect(backup.prepare('SELECT max(version) FROM schema_migrations').pluck().get()).toBe(LATEST);
       expect(backup.prepare("SELECT count(*) FROM sqlite_master WHERE name = 'extra_notes'").pluck().get()).toBe(0);
     } finally {
       backup.close();
@@ -97,11 +104,11 @@ describe('openDatabase', () => {
   it('rolls back a failing migration and keeps the schema version', () => {
     const path = join(tmp.dir, 'pw.db');
     openDatabase(path, { migrationsDir }).db.close();
-    writeFileSync(join(migrationsDir, '003_broken.sql'), 'CREATE TABLE half_done (id INTEGER);\nCREATE TABLE oops (;');
+    writeFileSync(join(migrationsDir, `${NEXT_NAME}_broken.sql`), 'CREATE TABLE half_done (id INTEGER);\nCREATE TABLE oops (;');
     expect(codeOf(() => openDatabase(path, { migrationsDir }))).toBe('PW_STORE_MIGRATION_FAILED');
     const db = new Database(path, { readonly: true });
     try {
-      expect(db.prepare('SELECT max(version) FROM schema_migrations').pluck().get()).toBe(2);
+      expect(db.prepare('SELECT max(version) FROM schema_migrations').pluck().get()).toBe(LATEST);
       expect(db.prepare("SELECT count(*) FROM sqlite_master WHERE name = 'half_done'").pluck().get()).toBe(0);
     } finally {
       db.close();
@@ -111,7 +118,7 @@ describe('openDatabase', () => {
   it('refuses a database newer than the code and leaves the file untouched', () => {
     const path = join(tmp.dir, 'pw.db');
     const { db } = openDatabase(path, { migrationsDir });
-    db.prepare("INSERT INTO schema_migrations (version, name, applied_at) VALUES (9, '009_future.sql', '2030-01-01T00:00:00.000Z')").run();
+    db.prepare("INSERT INTO schema_migrations (version, name, applied_at) VALUES (?, 'future.sql', '2030-01-01T00:00:00.000Z')").run(FUTURE);
     db.close();
     const before = sha256(path);
     let message = '';
@@ -121,7 +128,7 @@ describe('openDatabase', () => {
       expect(isStoreError(error) && error.code).toBe('PW_STORE_TOO_NEW');
       message = (error as Error).message;
     }
-    expect(message).toMatch(/schema version 9.*only knows up to version 2/);
+    expect(message).toMatch(new RegExp(`schema version ${FUTURE}.*only knows up to version ${LATEST}`));
     expect(sha256(path)).toBe(before);
     expect(readdirSync(tmp.dir).filter((n) => n.startsWith('pw.db.pre-'))).toEqual([]);
   });

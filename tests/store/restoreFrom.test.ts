@@ -112,7 +112,7 @@ describe('restoreFrom', () => {
 
   it('refuses a backup from a newer pairwatch', async () => {
     const db = new Database(backup);
-    db.prepare("INSERT INTO schema_migrations (version, name, applied_at) VALUES (40, '040_future.sql', 'later')").run();
+    db.prepare("INSERT INTO schema_migrations (version, name, applied_at) VALUES (999, '999_future.sql', 'later')").run();
     db.close();
     await expect(restoreFrom(backup, live)).rejects.toMatchObject({ code: 'PW_STORE_TOO_NEW' });
   });

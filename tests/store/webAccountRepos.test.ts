@@ -1,11 +1,11 @@
 import { join } from 'node:path';
 import type BetterSqlite3 from 'better-sqlite3';
-import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
 import { findLiveApiTokenByHash, insertApiToken, listApiTokens, revokeApiToken } from '../../src/store/apiTokenRepo.js';
-import { countLoginFailures, deleteLoginFailuresBefore, insertLoginFailure } from '../../src/store/loginFailureRepo.js';
+import { countLoginFailures, deleteLoginFailure, deleteLoginFailuresBefore, insertLoginFailure } from '../../src/store/loginFailureRepo.js';
 import { openDatabase } from '../../src/store/openDatabase.js';
 import { deleteUser, findUserByName, insertUser, listUsers } from '../../src/store/userRepo.js';
-import { deleteExpiredWebSessions, findWebSession, insertWebSession } from '../../src/store/webSessionRepo.js';
+import { deleteExpiredWebSessions, findWebSession, insertWebSession, touchWebSession } from '../../src/store/webSessionRepo.js';
 import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
 
 let tmp: TempDir;
@@ -66,5 +66,31 @@ describe('loginFailureRepo', () => {
     insertLoginFailure(db, { name: 'meg', ip: '192.0.2.2', at: T });
     expect(countLoginFailures(db, { name: 'meg', ip: '192.0.2.1', sinceAt: T - 60_000 })).toEqual({ byIp: 2, byName: 2 });
     expect(deleteLoginFailuresBefore(db, T - 60_000)).toBe(1);
+  });
+});
+
+describe('statements are prepared once per connection, not per request (issue 14)', () => {
+  it('a second round of every account query prepares nothing', () => {
+    const round = (i: number) => {
+      const u = addUser(`user${i}`);
+      findUserByName(db, `user${i}`);
+      listUsers(db);
+      insertWebSession(db, { idHash: `s${i}`, userId: u.id, csrfToken: 'c', createdAt: T, expiresAt: T + 1000 });
+      findWebSession(db, `s${i}`, T, 60_000);
+      touchWebSession(db, `s${i}`, T + 1);
+      deleteExpiredWebSessions(db, T, 60_000);
+      insertApiToken(db, { name: `t${i}`, tokenHash: `h${i}`, role: 'viewer', createdAt: T });
+      findLiveApiTokenByHash(db, `h${i}`);
+      listApiTokens(db);
+      revokeApiToken(db, `t${i}`, T);
+      const id = insertLoginFailure(db, { name: `user${i}`, ip: '192.0.2.1', at: T });
+      countLoginFailures(db, { name: `user${i}`, ip: '192.0.2.1', sinceAt: T - 60_000 });
+      deleteLoginFailure(db, id);
+      deleteUser(db, `user${i}`);
+    };
+    round(1);
+    const prepare = vi.spyOn(db, 'prepare');
+    for (let i = 2; i < 12; i++) round(i);
+    expect(prepare).not.toHaveBeenCalled();
   });
 });

@@ -11,8 +11,8 @@ afterEach(async () => {
 });
 
 const HOUR = 3_600_000;
-const tokenFor = (alarmId: number, expiresAt = web.clock.now + HOUR, secret = ACK_SECRET) =>
-  signAckToken({ alarmId, expiresAt, tokenId: newAckTokenId() }, secret);
+const tokenFor = (alarmId: number, expiresAt = web.clock.now + HOUR, secret = ACK_SECRET, contactId = 'office') =>
+  signAckToken({ alarmId, contactId, expiresAt, tokenId: newAckTokenId() }, secret);
 const postAck = (token: string, fields: Record<string, string>) =>
   web.app.inject({
     method: 'POST',
@@ -44,12 +44,12 @@ describe('acknowledge links from mail', () => {
     expect(web.site.calls).toEqual([]);
   });
 
-  it('POST acknowledges once, as "mail-link", with the note; no session or CSRF token needed', async () => {
+  it('POST acknowledges once, as the contact the link was mailed to, with the note; no session or CSRF token needed', async () => {
     const token = tokenFor(7);
     const res = await postAck(token, { alarm: '7', note: 'seen it, on my way' });
     expect(res.statusCode).toBe(200);
     expect(res.body).toContain('Acknowledged');
-    expect(web.site.calls).toEqual([{ command: 'acknowledge', args: [7, 'mail-link', 'seen it, on my way'] }]);
+    expect(web.site.calls).toEqual([{ command: 'acknowledge', args: [7, 'Farm office (mail link)', 'seen it, on my way'] }]);
 
     const replay = await postAck(token, { alarm: '7' });
     expect(replay.statusCode).toBe(410);
@@ -59,10 +59,34 @@ describe('acknowledge links from mail', () => {
     expect(web.site.calls).toHaveLength(1);
   });
 
+  it('the note on the link page follows the free-text rule: line breaks folded, controls refused without spending the link (issue 9)', async () => {
+    const refused = tokenFor(7);
+    const bad = await postAck(refused, { alarm: '7', note: 'ok\u0000cut' });
+    expect(bad.statusCode).toBe(400);
+    expect(web.site.calls).toEqual([]);
+    expect((await web.app.inject({ method: 'GET', url: `/ack/${refused}` })).statusCode).toBe(200);
+    const res = await postAck(refused, { alarm: '7', note: 'seen\r\nAcknowledge: http://evil.example/' });
+    expect(res.statusCode).toBe(200);
+    expect(web.site.calls).toEqual([{ command: 'acknowledge', args: [7, 'Farm office (mail link)', 'seen Acknowledge: http://evil.example/'] }]);
+  });
+
+  it('a link for a contact no longer in the config still acknowledges, under the contact id', async () => {
+    const res = await postAck(tokenFor(7, web.clock.now + HOUR, ACK_SECRET, 'gone-away'), { alarm: '7' });
+    expect(res.statusCode).toBe(200);
+    expect(web.site.calls).toEqual([{ command: 'acknowledge', args: [7, 'gone-away (mail link)', null] }]);
+  });
+
+  it('a refused acknowledgement (409) leaves the link unspent', async () => {
+    const token = tokenFor(8); // alarm 8 is acknowledged already
+    const res = await postAck(token, { alarm: '8' });
+    expect(res.statusCode).toBe(409);
+    expect(web.db.prepare('SELECT count(*) AS n FROM used_ack_tokens').get()).toEqual({ n: 0 });
+  });
+
   it('refuses a forged token (signed with another key, or altered)', async () => {
     const otherKey = tokenFor(7, web.clock.now + HOUR, Buffer.alloc(32, 9));
     const good = tokenFor(7);
-    const altered = good.replace(/^a1\.7\./, 'a1.8.');
+    const altered = good.replace(/^a2\.7\./, 'a2.8.');
     for (const token of [otherKey, altered]) {
       expect((await web.app.inject({ method: 'GET', url: `/ack/${token}` })).statusCode).toBe(403);
       const res = await postAck(token, { alarm: token === altered ? '8' : '7' });

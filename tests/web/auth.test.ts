@@ -124,12 +124,34 @@ describe('pages and sessions', () => {
     expect(rows.map((r) => r.id_hash)).not.toContain(cookie.value);
   });
 
-  it('sessions expire after web.session_ttl', async () => {
+  it('sessions expire after web.session_ttl, however busy', async () => {
     const s = await session(web.app, 'otto');
-    web.clock.now += 7 * 86_400_000 - 1000;
+    const end = web.clock.now + 7 * 86_400_000 - 1000;
+    // Used every 6 h (within web.session_idle), so only the absolute lifetime can end it.
+    while (web.clock.now + 6 * 3_600_000 < end) {
+      web.clock.now += 6 * 3_600_000;
+      expect((await web.app.inject({ method: 'GET', url: '/', headers: { cookie: s.cookie } })).statusCode).toBe(200);
+    }
+    web.clock.now = end;
     expect((await web.app.inject({ method: 'GET', url: '/', headers: { cookie: s.cookie } })).statusCode).toBe(200);
     web.clock.now += 2000;
     const res = await web.app.inject({ method: 'GET', url: '/', headers: { cookie: s.cookie } });
+    expect(res.statusCode).toBe(303);
+    expect(res.headers.location).toMatch(/^\/login/);
+  });
+
+  it('a session unused for web.session_idle ends; each use restarts the idle time (issue 9)', async () => {
+    const idle = web.config.web.session_idle;
+    expect(idle).toBe(12 * 3_600_000); // the documented default
+    const s = await session(web.app, 'otto');
+    const get = () => web.app.inject({ method: 'GET', url: '/', headers: { cookie: s.cookie } });
+    // Used just inside the idle time, over and over, for longer than the idle time in total.
+    for (let i = 0; i < 3; i++) {
+      web.clock.now += idle - 60_000;
+      expect((await get()).statusCode).toBe(200);
+    }
+    web.clock.now += idle;
+    const res = await get();
     expect(res.statusCode).toBe(303);
     expect(res.headers.location).toMatch(/^\/login/);
   });

@@ -138,7 +138,7 @@ describe('the board on a phone, in headless Chromium', () => {
   it('an acknowledge link from a mail: the page asks, the button acknowledges', async () => {
     const alarm = web.site.alarms.find((a) => a.id === 7)!;
     alarm.state = 'unacknowledged';
-    const token = signAckToken({ alarmId: 7, expiresAt: web.clock.now + 3_600_000, tokenId: newAckTokenId() }, ACK_SECRET);
+    const token = signAckToken({ alarmId: 7, contactId: 'office', expiresAt: web.clock.now + 3_600_000, tokenId: newAckTokenId() }, ACK_SECRET);
     const context = await browser.newContext({ viewport: { width: 390, height: 844 } });
     const page = await context.newPage();
     const before = web.site.calls.length;
@@ -151,7 +151,7 @@ describe('the board on a phone, in headless Chromium', () => {
     await page.click('button:has-text("Acknowledge")');
     await expect.poll(() => page.textContent('h1')).toBe('Acknowledged');
     await page.screenshot({ path: join(OUT, '11-ack-link-done.png'), fullPage: true });
-    expect(web.site.calls.at(-1)).toEqual({ command: 'acknowledge', args: [7, 'mail-link', 'from the tractor'] });
+    expect(web.site.calls.at(-1)).toEqual({ command: 'acknowledge', args: [7, 'Farm office (mail link)', 'from the tractor'] });
     await page.goto(`${base}/ack/${token}`);
     expect(await page.textContent('h1')).toBe('Link refused');
     await context.close();

@@ -1,4 +1,6 @@
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import pino from 'pino';
+import { listLoginFailures } from '../../src/store/loginFailureRepo.js';
 import { cookieFrom, csrfFrom, session, signIn, startTestWeb, testConfig, USERS, type TestWeb } from './fixtures/testWeb.js';
 
 let web: TestWeb;
@@ -117,11 +119,59 @@ describe('sign-in rate limit (web.login_attempts_per_minute = 5)', () => {
     expect((await signIn(web.app, 'otto', USERS.otto.password, '192.0.2.7')).statusCode).toBe(303);
   });
 
-  it('failures for one name from many addresses are limited too', async () => {
+  it('failures for one name lock it only for addresses that failed: a clean address still signs in (issue 9)', async () => {
     for (let i = 0; i < 5; i++) await signIn(web.app, 'ada', 'wrong', `198.51.100.${i + 1}`);
-    expect((await signIn(web.app, 'ada', USERS.ada.password, '198.51.100.200')).statusCode).toBe(429);
+    // A guessing address that has failed gets no more tries at the name, even with the right password …
+    expect((await signIn(web.app, 'ada', USERS.ada.password, '198.51.100.1')).statusCode).toBe(429);
+    // … but the real user from an address that has not failed is not locked out.
+    expect((await signIn(web.app, 'ada', USERS.ada.password, '198.51.100.200')).statusCode).toBe(303);
     // Other users are unaffected.
     expect((await signIn(web.app, 'vera', USERS.vera.password, '198.51.100.201')).statusCode).toBe(303);
+  });
+
+  it('one address flooding one name does not lock the user out from another address (issue 9)', async () => {
+    for (let i = 0; i < 20; i++) await signIn(web.app, 'otto', `guess-${i}`, '203.0.113.66');
+    expect((await signIn(web.app, 'otto', USERS.otto.password, '192.0.2.44')).statusCode).toBe(303);
+  });
+
+  it('parallel wrong passwords are counted before hashing: at most the limit are checked (issue 9)', async () => {
+    const forms = await Promise.all(Array.from({ length: 40 }, () => web.app.inject({ method: 'GET', url: '/login', remoteAddress: '192.0.2.99' })));
+    const answers = await Promise.all(
+      forms.map((form, i) =>
+        web.app.inject({
+          method: 'POST',
+          url: '/login',
+          remoteAddress: '192.0.2.99',
+          headers: { cookie: `pw_login=${cookieFrom(form, 'pw_login')}`, 'content-type': 'application/x-www-form-urlencoded' },
+          payload: new URLSearchParams({ csrf: csrfFrom(form.body), name: 'otto', password: `parallel-${i}`, next: '/' }).toString(),
+        }),
+      ),
+    );
+    const codes = answers.map((a) => a.statusCode);
+    expect(codes.filter((c) => c === 401)).toHaveLength(5);
+    expect(codes.filter((c) => c === 429)).toHaveLength(35);
+    expect(listLoginFailures(web.db).filter((f) => f.ip === '192.0.2.99')).toHaveLength(5);
+  });
+
+  it('a right password takes its reserved attempt back', async () => {
+    for (let i = 0; i < 10; i++) expect((await signIn(web.app, 'otto', USERS.otto.password, '192.0.2.5')).statusCode).toBe(303);
+    expect(listLoginFailures(web.db)).toEqual([]);
+  });
+
+  it('the failed sign-in log lines carry whether the name exists, never the name typed (issue 9)', async () => {
+    const lines: string[] = [];
+    await web.close();
+    web = await startTestWeb({ logger: pino({ level: 'info' }, { write: (line: string) => lines.push(line) }) });
+    const secretLike = 'Hunter2-typed-into-name';
+    for (let i = 0; i < 6; i++) await signIn(web.app, secretLike, 'x-password', '192.0.2.8');
+    await signIn(web.app, 'otto', 'x-password', '192.0.2.9');
+    expect(lines.join('\n')).not.toContain(secretLike);
+    const entries = lines.map((l) => JSON.parse(l) as { msg: string; ip?: string; knownName?: boolean });
+    expect(entries.filter((e) => e.msg === 'sign-in failed').map((e) => [e.ip, e.knownName])).toEqual([
+      ...Array.from({ length: 5 }, () => ['192.0.2.8', false]),
+      ['192.0.2.9', true],
+    ]);
+    expect(entries.some((e) => e.msg.startsWith('sign-in refused'))).toBe(true);
   });
 });
 

@@ -99,6 +99,14 @@ export async function checkSmtp(mail: MailConfig, env: NodeJS.ProcessEnv, verify
     const security = smtp.secure ? 'TLS' : startTls ? 'STARTTLS' : 'no encryption';
     const login = smtp.user ? `logged in as ${smtp.user}` : 'no login configured';
     const finding = `connected to ${where}, ${security}, ${login}; no mail sent`;
+    if (security === 'no encryption' && smtp.user) {
+      // The login itself went out unencrypted: whoever can read the connection has the password.
+      return warned(
+        name,
+        `${finding}; the login went over the connection without TLS, so the password was readable by anyone on the way`,
+        'use a server that offers STARTTLS (port 587) or TLS (port 465 with secure: true), and set require_tls: true so a login never goes out in clear',
+      );
+    }
     if (security === 'no encryption' && !LOOPBACK.test(smtp.host)) {
       return warned(name, finding, 'the server offered no STARTTLS: passwords and alarms travel in clear; use port 587 with STARTTLS or 465 with secure: true');
     }

@@ -21,7 +21,7 @@ export function judgeProtocol(report: ListenReport, context: ProtocolContext): C
   const seconds = (context.firstValidWithinMs / 1000).toFixed(0);
   const baudFix = port.startsWith('tcp://')
     ? 'check the network box\'s serial settings (baud, 8N1) and that the decoder is wired to it'
-    : `check the baud rate (the config says ${baud}; the decoder's default is 115200) and the USB cable; \`pairwatch ports\` shows which port is the decoder`;
+    : `check the baud rate (the config says ${baud}; pairwatch's decoder firmware speaks 250000) and the USB cable; \`pairwatch ports\` shows which port is the decoder`;
 
   const total = report.lines.length;
   const valid = report.lines.filter((l) => l.outcome.ok);

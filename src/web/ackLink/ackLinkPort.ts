@@ -3,7 +3,7 @@
  * interface so the web layer can be tested with the real token code and still not reach into SQL.
  */
 export type AckLinkCheck =
-  | { ok: true; alarmId: number; tokenId: string; expiresAt: number }
+  | { ok: true; alarmId: number; contactId: string | null; tokenId: string; expiresAt: number }
   | { ok: false; reason: string };
 
 export interface AckLinkPort {
@@ -11,6 +11,9 @@ export interface AckLinkPort {
   verify(token: string, now: number): AckLinkCheck;
   /** Whether the token has been spent already (checked on GET, so a spent link says so). */
   isUsed(tokenId: string): boolean;
-  /** Spends the token; false when it was spent already (a second POST, or a race). */
-  markUsed(tokenId: string, at: number): boolean;
+  /**
+   * Spends the token; false when it was spent already. Handed to the acknowledge command, which calls
+   * it inside the transaction that records the acknowledgement: a refused acknowledgement spends nothing.
+   */
+  spend(token: string, at: number): boolean;
 }

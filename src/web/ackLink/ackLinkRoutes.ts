@@ -1,11 +1,19 @@
 import type { FastifyInstance, FastifyReply } from 'fastify';
-import { formBody, formField } from '../http/formFields.js';
+import { formBody, formField, freeTextField } from '../http/formFields.js';
 import { renderAckConfirmPage, renderAckDonePage } from '../pages/ackLinkPage.js';
 import { renderMessagePage } from '../pages/messagePage.js';
 import type { WebContext } from '../webContext.js';
 
-/** The actor recorded when an alarm is acknowledged from a mailed link rather than by a signed-in user. */
+/** The actor recorded for a link that names no contact (links mailed before links carried one). */
 export const MAIL_LINK_ACTOR = 'mail-link';
+
+/**
+ * Who acknowledged through a mailed link: the contact it was mailed to, as the config names them
+ * ("Farm office (mail link)"). A user name can never look like this (no spaces or brackets allowed).
+ */
+export function mailLinkActor(contactName: string | null): string {
+  return contactName === null ? MAIL_LINK_ACTOR : `${contactName} (mail link)`;
+}
 
 const REFUSAL = {
   malformed: { status: 404, text: 'This acknowledge link is not valid. It may have been cut short: open it from the mail again.' },
@@ -66,10 +74,15 @@ export function registerAckLinkRoutes(app: FastifyInstance, ctx: WebContext): vo
     const { claims, alarm } = checked;
     const body = formBody(request.body);
     if (formField(body, 'alarm', 20) !== String(claims.alarmId)) return refuse(reply, 'mismatch');
-    const note = formField(body, 'note')?.trim() || null;
-    if (!ctx.ackLinks.markUsed(claims.tokenId, ctx.now())) return refuse(reply, 'used');
-    const result = ctx.commands.acknowledge(claims.alarmId, MAIL_LINK_ACTOR, note);
-    ctx.log.info({ alarmId: claims.alarmId, ok: result.ok, ip: request.ip }, 'acknowledge link used');
+    const note = freeTextField(body, 'note') ?? null;
+    // From here to the acknowledge command's commit nothing awaits, so no second POST can slip in between.
+    if (ctx.ackLinks.isUsed(claims.tokenId)) return refuse(reply, 'used');
+    const contact = claims.contactId === null ? null : (ctx.config.contacts.find((c) => c.id === claims.contactId) ?? null);
+    const actor = mailLinkActor(contact ? contact.name : claims.contactId);
+    const now = ctx.now();
+    const result = ctx.commands.acknowledge(claims.alarmId, actor, note, () => ctx.ackLinks.spend(token, now));
+    if (!result.ok && result.code === 'PW_ACK_LINK_USED') return refuse(reply, 'used');
+    ctx.log.info({ alarmId: claims.alarmId, ok: result.ok, ip: request.ip, contact: claims.contactId }, 'acknowledge link used');
     const fresh = ctx.read.alarm(claims.alarmId) ?? alarm;
     if (!result.ok) {
       return reply

@@ -1,6 +1,7 @@
 import type BetterSqlite3 from 'better-sqlite3';
 import { verifyAckToken } from '../../notify/ackToken.js';
-import { ackTokenUsedAt, markAckTokenUsed } from '../../store/ackTokenRepo.js';
+import { redeemAckLink } from '../../notify/redeemAckToken.js';
+import { ackTokenUsedAt } from '../../store/ackTokenRepo.js';
 import type { AckLinkPort } from './ackLinkPort.js';
 
 /** The real acknowledge-link checks: the notify module's signed tokens, spent in the store's table. */
@@ -8,6 +9,6 @@ export function createAckLinks(db: BetterSqlite3.Database, secret: Buffer): AckL
   return {
     verify: (token, now) => verifyAckToken(token, secret, now),
     isUsed: (tokenId) => ackTokenUsedAt(db, tokenId) !== null,
-    markUsed: (tokenId, at) => markAckTokenUsed(db, tokenId, at),
+    spend: (token, at) => redeemAckLink(db, token, secret, at).ok,
   };
 }

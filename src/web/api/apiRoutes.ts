@@ -1,4 +1,4 @@
-import type { FastifyInstance, FastifyRequest } from 'fastify';
+import type { FastifyInstance, FastifyReply, FastifyRequest } from 'fastify';
 import { requireCsrf, requireRole } from '../auth/requestAuth.js';
 import { assertCommandOk } from '../http/commandOutcome.js';
 import { notFound } from '../webErrors.js';
@@ -50,6 +50,26 @@ export function registerApiRoutes(app: FastifyInstance, ctx: WebContext): void {
     return alarmDetailToApi(alarm);
   };
 
+  /**
+   * /loops and /alarms (active) are polled by every board and phone; their bodies are serialised
+   * once per read-model version and sent as the same bytes until anything changes. Without a
+   * version every request builds its body.
+   */
+  const cachedJson = (build: () => unknown) => {
+    let at: number | null = null;
+    let body = '';
+    return (reply: FastifyReply): FastifyReply => {
+      const version = read.version?.() ?? null;
+      if (version === null || version !== at) {
+        body = JSON.stringify(build());
+        at = version;
+      }
+      return reply.type('application/json; charset=utf-8').send(body);
+    };
+  };
+  const loopsBody = cachedJson(() => read.loops().map(loopToApi));
+  const activeAlarmsBody = cachedJson(() => read.alarms('active').map(alarmToApi));
+
   app.get(`${API_PREFIX}/openapi.json`, async () => buildOpenApiDocument({ maxShelveMinutes, siteName: ctx.config.site.name }));
 
   app.get(`${API_PREFIX}/me`, async (request) => {
@@ -57,10 +77,10 @@ export function registerApiRoutes(app: FastifyInstance, ctx: WebContext): void {
     return { name: principal.name, role: principal.role, via: principal.kind };
   });
 
-  app.get(`${API_PREFIX}/loops`, async (request) => {
+  app.get(`${API_PREFIX}/loops`, async (request, reply) => {
     requireRole(request, 'viewer');
     parseInput(emptyBodySchema, request.query, 'query');
-    return read.loops().map(loopToApi);
+    return loopsBody(reply);
   });
 
   app.get(`${API_PREFIX}/loops/:id`, async (request) => {
@@ -103,9 +123,11 @@ export function registerApiRoutes(app: FastifyInstance, ctx: WebContext): void {
     return loopDetailToApi(loop);
   }
 
-  app.get(`${API_PREFIX}/alarms`, async (request) => {
+  app.get(`${API_PREFIX}/alarms`, async (request, reply) => {
     requireRole(request, 'viewer');
     const { status } = parseInput(alarmsQuerySchema, request.query, 'query');
+    // "all" reads stored history too, which the writer may catch up on at any time: never cached.
+    if (status === 'active') return activeAlarmsBody(reply);
     return read.alarms(status).map(alarmToApi);
   });
 

@@ -3,6 +3,7 @@ import { ALARM_STATES } from '../../model/alarmState.js';
 import { CONDITIONS, PRIORITIES } from '../../model/condition.js';
 import { LOOP_STATES } from '../../model/loopState.js';
 import { AUDIT_ACTIONS } from '../../alarms/alarmTypes.js';
+import { foldFreeText, freeTextProblem } from '../http/freeText.js';
 
 /**
  * Request and response shapes of /api/v1, as zod schemas. Requests are parsed with them; responses
@@ -17,11 +18,19 @@ const nullableIso = isoTime.nullable();
 
 const NOTE_MAX = 1000;
 
-const optionalNote = z
-  .string({ error: 'must be text' })
-  .max(NOTE_MAX, `must be at most ${NOTE_MAX} characters`)
-  .optional()
-  .describe('Free text kept in the audit trail');
+/** A person's note or reason, under the free-text rule (src/web/http/freeText.ts): line breaks folded, control characters refused. */
+function freeText(typeError: string) {
+  return z
+    .string({ error: typeError })
+    .max(NOTE_MAX, `must be at most ${NOTE_MAX} characters`)
+    .overwrite((text) => foldFreeText(text).trim())
+    .check((ctx) => {
+      const problem = freeTextProblem(ctx.value);
+      if (problem) ctx.issues.push({ code: 'custom', message: problem, input: ctx.value });
+    });
+}
+
+const optionalNote = freeText('must be text').optional().describe('Free text kept in the audit trail; line breaks become spaces, control characters are refused');
 
 export const ackBodySchema = z.strictObject({ note: optionalNote }, { error: 'must be a JSON object' });
 
@@ -33,7 +42,7 @@ export function shelveBodySchema(maxMinutes: number) {
         .int('must be a whole number of minutes')
         .min(1, 'must be at least 1')
         .max(maxMinutes, `must be at most ${maxMinutes} (web.max_shelve)`),
-      reason: z.string({ error: 'is required: say why the alarm is shelved' }).trim().min(1, 'must not be empty').max(NOTE_MAX, `must be at most ${NOTE_MAX} characters`),
+      reason: freeText('is required: say why the alarm is shelved').min(1, 'must not be empty').max(NOTE_MAX, `must be at most ${NOTE_MAX} characters`),
     },
     { error: 'must be a JSON object' },
   );
@@ -41,7 +50,7 @@ export function shelveBodySchema(maxMinutes: number) {
 
 export const outOfServiceBodySchema = z.strictObject(
   {
-    note: z.string({ error: 'is required: say why the loop is out of service' }).trim().min(1, 'must not be empty').max(NOTE_MAX, `must be at most ${NOTE_MAX} characters`),
+    note: freeText('is required: say why the loop is out of service').min(1, 'must not be empty').max(NOTE_MAX, `must be at most ${NOTE_MAX} characters`),
   },
   { error: 'must be a JSON object' },
 );

@@ -22,7 +22,23 @@ import type {
 
 /** Read-model views (epoch ms) to API bodies (ISO 8601 UTC). */
 
-export const isoTime = (ms: number): string => new Date(ms).toISOString();
+/**
+ * Each instant is formatted once: a board repeats the same few hundred times (every loop's "since"
+ * and last pulse) on every request, and toISOString was a quarter of a /loops response's cost.
+ * The memo is cleared when it fills, so it stays small whatever the clock does.
+ */
+const formatted = new Map<number, string>();
+const FORMATTED_MAX = 4096;
+
+export const isoTime = (ms: number): string => {
+  let text = formatted.get(ms);
+  if (text === undefined) {
+    text = new Date(ms).toISOString();
+    if (formatted.size >= FORMATTED_MAX) formatted.clear();
+    formatted.set(ms, text);
+  }
+  return text;
+};
 export const isoOrNull = (ms: number | null): string | null => (ms === null ? null : isoTime(ms));
 
 export function loopToApi(loop: LoopView): z.infer<typeof loopSchema> {

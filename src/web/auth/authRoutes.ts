@@ -1,5 +1,5 @@
 import type { FastifyInstance, FastifyReply } from 'fastify';
-import { countLoginFailures, deleteLoginFailuresBefore, insertLoginFailure } from '../../store/loginFailureRepo.js';
+import { countLoginFailures, deleteLoginFailure, deleteLoginFailuresBefore, insertLoginFailure } from '../../store/loginFailureRepo.js';
 import { findUserByName } from '../../store/userRepo.js';
 import { deleteExpiredWebSessions, deleteWebSession, insertWebSession } from '../../store/webSessionRepo.js';
 import { formBody, formField } from '../http/formFields.js';
@@ -9,6 +9,7 @@ import { WebError } from '../webErrors.js';
 import type { WebContext } from '../webContext.js';
 import { sameSecret } from './csrfCheck.js';
 import { decideLoginThrottle, LOGIN_WINDOW_MS } from './loginThrottle.js';
+import { createPasswordCheckGate } from './passwordCheckGate.js';
 import { makeDecoyHash, verifyPassword, type PasswordHash } from './passwordHash.js';
 import { requireCsrf, requireRole, requireSameOrigin } from './requestAuth.js';
 import { SESSION_COOKIE } from './resolvePrincipal.js';
@@ -18,9 +19,14 @@ import { randomSecret, sha256Hex } from './secretToken.js';
 export const LOGIN_FORM_COOKIE = 'pw_login';
 const LOGIN_FORM_TTL_S = 3600;
 const FAILURE_KEEP_MS = 90 * 86_400_000;
+/** Concurrent scrypt checks (about 128 MiB each at the default cost) and how many may wait for one. */
+export const PASSWORD_CHECKS_RUNNING = 2;
+export const PASSWORD_CHECKS_WAITING = 16;
+const BUSY_RETRY_S = 5;
 
 export function registerAuthRoutes(app: FastifyInstance, ctx: WebContext): void {
   let decoy: Promise<PasswordHash> | null = null;
+  const gate = createPasswordCheckGate({ running: PASSWORD_CHECKS_RUNNING, waiting: PASSWORD_CHECKS_WAITING });
   const cookieBase = { httpOnly: true, sameSite: 'strict' as const, secure: ctx.secureCookies };
 
   const showLogin = (reply: FastifyReply, status: number, next: string, name?: string, problem?: string) => {
@@ -59,26 +65,38 @@ export function registerAuthRoutes(app: FastifyInstance, ctx: WebContext): void 
       ctx.config.web.login_attempts_per_minute,
     );
     if (!decision.allowed) {
-      ctx.log.warn({ name, ip }, 'sign-in refused: too many failed attempts');
+      // Never the submitted name: people type passwords into the name field.
+      ctx.log.warn({ ip }, 'sign-in refused: too many failed attempts');
       reply.header('retry-after', String(decision.retryAfterSeconds));
       return showLogin(reply, 429, next, name, new WebError('PW_WEB_RATE_LIMITED', { seconds: decision.retryAfterSeconds }).message);
     }
+    // Counted before the hash runs (nothing awaited since the count), so parallel guesses see each other.
+    const reservation = insertLoginFailure(ctx.db, { name, ip, at: now });
 
     const user = findUserByName(ctx.db, name);
     decoy ??= makeDecoyHash(ctx.scryptCost);
-    const stored = user ? { hash: user.passwordHash, salt: user.passwordSalt } : await decoy;
-    const ok = (await verifyPassword(password, stored)) && user !== null;
+    const checking = gate.run(async () => {
+      const stored = user ? { hash: user.passwordHash, salt: user.passwordSalt } : await decoy!;
+      return verifyPassword(password, stored);
+    });
+    if (!checking) {
+      deleteLoginFailure(ctx.db, reservation);
+      ctx.log.warn({ ip }, 'sign-in turned away: too many password checks waiting');
+      reply.header('retry-after', String(BUSY_RETRY_S));
+      return showLogin(reply, 503, next, name, new WebError('PW_WEB_BUSY', { seconds: BUSY_RETRY_S }).message);
+    }
+    const ok = (await checking) && user !== null;
     if (!ok || !user) {
-      insertLoginFailure(ctx.db, { name, ip, at: now });
       deleteLoginFailuresBefore(ctx.db, now - FAILURE_KEEP_MS);
-      ctx.log.warn({ name, ip, knownName: user !== null }, 'sign-in failed');
+      ctx.log.warn({ ip, knownName: user !== null }, 'sign-in failed');
       return showLogin(reply, 401, next, name, new WebError('PW_WEB_BAD_LOGIN').message);
     }
+    deleteLoginFailure(ctx.db, reservation);
 
     const sessionId = randomSecret(32);
     const ttl = ctx.config.web.session_ttl;
     insertWebSession(ctx.db, { idHash: sha256Hex(sessionId), userId: user.id, csrfToken: randomSecret(32), createdAt: now, expiresAt: now + ttl });
-    deleteExpiredWebSessions(ctx.db, now);
+    deleteExpiredWebSessions(ctx.db, now, ctx.config.web.session_idle);
     ctx.log.info({ name, ip }, 'signed in');
     reply.clearCookie(LOGIN_FORM_COOKIE, { ...cookieBase, path: '/login' });
     reply.setCookie(SESSION_COOKIE, sessionId, { ...cookieBase, path: '/', maxAge: Math.floor(ttl / 1000) });

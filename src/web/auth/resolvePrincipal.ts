@@ -1,11 +1,13 @@
 import type BetterSqlite3 from 'better-sqlite3';
 import { findLiveApiTokenByHash } from '../../store/apiTokenRepo.js';
-import { findWebSession } from '../../store/webSessionRepo.js';
+import { findWebSession, touchWebSession } from '../../store/webSessionRepo.js';
 import type { Principal } from './principal.js';
 import { tokenActor } from './accountName.js';
 import { sha256Hex } from './secretToken.js';
 
 export const SESSION_COOKIE = 'pw_session';
+/** A session's last use is written at most this often, so a busy board does not write on every request. */
+const TOUCH_EVERY_MS = 60_000;
 
 export type PrincipalLookup =
   | { kind: 'none' }
@@ -15,13 +17,15 @@ export type PrincipalLookup =
 
 /**
  * A Bearer header wins over a cookie: a script that sends a token means that token. A stale session
- * cookie is the same as none (the browser is sent to the sign-in page).
+ * cookie is the same as none (the browser is sent to the sign-in page), and so is one unused for
+ * `sessionIdleMs`; a session in use has its idle time restarted.
  */
 export function resolvePrincipal(
   db: BetterSqlite3.Database,
   authorization: string | undefined,
   sessionCookie: string | undefined,
   now: number,
+  sessionIdleMs?: number,
 ): PrincipalLookup {
   if (authorization !== undefined && authorization.trim() !== '') {
     const match = /^Bearer\s+(\S+)\s*$/i.exec(authorization);
@@ -32,8 +36,9 @@ export function resolvePrincipal(
   }
   if (sessionCookie) {
     const idHash = sha256Hex(sessionCookie);
-    const session = findWebSession(db, idHash, now);
+    const session = findWebSession(db, idHash, now, sessionIdleMs);
     if (session) {
+      if (now - session.lastSeenAt >= TOUCH_EVERY_MS) touchWebSession(db, idHash, now);
       return {
         kind: 'found',
         principal: { kind: 'session', name: session.userName, role: session.role, csrfToken: session.csrfToken, sessionIdHash: idHash },

@@ -10,6 +10,7 @@ export function assertCommandOk(result: CommandResult, id: string | number): voi
     case 'PW_LOOP_NOT_FOUND':
       throw new WebError('PW_WEB_NOT_FOUND', { what: 'loop', id: String(id) }, { field: 'id' });
     case 'PW_ALARM_BAD_ACTION':
+    case 'PW_ACK_LINK_USED':
       throw new WebError('PW_WEB_BAD_ACTION', { reason: result.message });
   }
 }

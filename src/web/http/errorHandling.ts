@@ -36,8 +36,10 @@ const PAGE_TITLE: Record<number, string> = {
   409: 'Not possible now',
   413: 'Too large',
   415: 'Not accepted',
+  421: 'Wrong address',
   429: 'Too many tries',
   500: 'Something went wrong',
+  503: 'Busy',
 };
 
 function send(error: WebError, request: FastifyRequest, reply: FastifyReply, ctx: WebContext): FastifyReply {

@@ -1,4 +1,5 @@
 import { badInput } from '../webErrors.js';
+import { foldFreeText, freeTextProblem } from './freeText.js';
 
 /** A urlencoded form body as the form parser gives it; anything else counts as an empty form. */
 export function formBody(body: unknown): Record<string, unknown> {
@@ -16,6 +17,22 @@ export function formField(body: Record<string, unknown>, name: string, maxLength
 
 export function requiredFormField(body: Record<string, unknown>, name: string, maxLength = 1000): string {
   const value = formField(body, name, maxLength)?.trim();
+  if (!value) throw badInput(name, 'is required');
+  return value;
+}
+
+/** A note or reason typed by a person: folded and checked by the free-text rule, trimmed; undefined when empty. */
+export function freeTextField(body: Record<string, unknown>, name: string, maxLength = 1000): string | undefined {
+  const raw = formField(body, name, maxLength);
+  if (raw === undefined) return undefined;
+  const folded = foldFreeText(raw).trim();
+  const problem = freeTextProblem(folded);
+  if (problem) throw badInput(name, problem);
+  return folded === '' ? undefined : folded;
+}
+
+export function requiredFreeTextField(body: Record<string, unknown>, name: string, maxLength = 1000): string {
+  const value = freeTextField(body, name, maxLength);
   if (!value) throw badInput(name, 'is required');
   return value;
 }

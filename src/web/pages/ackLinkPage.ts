@@ -3,7 +3,7 @@ import type { AlarmDetailView } from '../webPorts.js';
 import { alarmTitle } from './alarmPage.js';
 import { html } from './html.js';
 import { renderPage } from './layout.js';
-import { siteTime, spanWords } from './siteTime.js';
+import { agoWords, siteTime, spanWords } from './siteTime.js';
 import { ALARM_STATE_LABEL, canAcknowledge } from './stateWords.js';
 
 /**
@@ -20,7 +20,7 @@ export function renderAckConfirmPage(data: {
   const { alarm } = data;
   const summary = html`<dl class="facts">
   <dt>What</dt><dd>${CONDITION_TEXT[alarm.condition].words}</dd>
-  <dt>Since</dt><dd>${siteTime(alarm.raisedAtMs, data.timeZone, data.now)} (${spanWords(data.now - alarm.raisedAtMs)} ago)</dd>
+  <dt>Since</dt><dd>${siteTime(alarm.raisedAtMs, data.timeZone, data.now)} (${agoWords(data.now - alarm.raisedAtMs)})</dd>
   <dt>Now</dt><dd>${ALARM_STATE_LABEL[alarm.state]}${alarm.state === 'acknowledged' && alarm.ackedBy ? html` by ${alarm.ackedBy}` : ''}</dd>
 </dl>`;
   const body = canAcknowledge(alarm.state)

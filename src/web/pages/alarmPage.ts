@@ -4,7 +4,7 @@ import { roleAllows } from '../auth/roles.js';
 import type { AlarmDetailView } from '../webPorts.js';
 import { html, type SafeHtml } from './html.js';
 import { renderPage } from './layout.js';
-import { siteTime, spanWords } from './siteTime.js';
+import { agoWords, siteTime, spanWords } from './siteTime.js';
 import { stateShape } from './stateShape.js';
 import { ALARM_STATE_LABEL, PRIORITY_LABEL, canAcknowledge, canShelve, type BoardState } from './stateWords.js';
 
@@ -36,7 +36,7 @@ export function alarmTitle(alarm: AlarmDetailView): string {
 }
 
 function when(ms: number, data: AlarmPageData): SafeHtml {
-  return html`<time datetime="${new Date(ms).toISOString()}">${siteTime(ms, data.timeZone, data.now)}</time> (${spanWords(data.now - ms)} ago)`;
+  return html`<time datetime="${new Date(ms).toISOString()}">${siteTime(ms, data.timeZone, data.now)}</time> (${agoWords(data.now - ms)})`;
 }
 
 function actions(data: AlarmPageData, principal: Principal): SafeHtml {

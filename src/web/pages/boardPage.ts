@@ -3,7 +3,7 @@ import type { AlarmView, LoopView } from '../webPorts.js';
 import { orderBoard, boardState, type BoardGroup } from './boardOrder.js';
 import { html, trustedHtml, type SafeHtml } from './html.js';
 import { renderPage } from './layout.js';
-import { sinceWords, siteTime, spanWords } from './siteTime.js';
+import { agoWords, sinceWords, siteTime, spanWords } from './siteTime.js';
 import { stateShape } from './stateShape.js';
 import { ALARM_STATE_LABEL, BOARD_STATE_LABEL, PRIORITY_LABEL } from './stateWords.js';
 import { CONDITION_TEXT } from '../../model/condition.js';
@@ -33,7 +33,7 @@ const COUNT_WORDS = {
 
 function pulseWords(loop: LoopView, now: number): string {
   if (loop.lastPulseAtMs === null) return 'no pulse seen yet';
-  return `last pulse ${spanWords(now - loop.lastPulseAtMs)} ago`;
+  return `last pulse ${agoWords(now - loop.lastPulseAtMs)}`;
 }
 
 function loopCard(loop: LoopView, data: BoardData): SafeHtml {

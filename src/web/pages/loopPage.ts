@@ -4,7 +4,7 @@ import type { LoopDetailView, LoopTimeline } from '../webPorts.js';
 import { boardState } from './boardOrder.js';
 import { html, type SafeHtml } from './html.js';
 import { renderPage } from './layout.js';
-import { sinceWords, siteTime, spanWords } from './siteTime.js';
+import { agoWords, sinceWords, siteTime, spanWords } from './siteTime.js';
 import { stateShape } from './stateShape.js';
 import { ALARM_STATE_LABEL, BOARD_STATE_LABEL, PRIORITY_LABEL } from './stateWords.js';
 import { renderTimeline } from './timelineSvg.js';
@@ -62,7 +62,7 @@ ${alarm}
 <dl class="facts">
   ${loop.location ? html`<dt>Where</dt><dd>${loop.location}</dd>` : ''}
   <dt>Wiring</dt><dd>decoder ${loop.decoder}, input ${loop.input}</dd>
-  <dt>Last pulse</dt><dd>${loop.lastPulseAtMs === null ? 'none seen yet' : html`${spanWords(data.now - loop.lastPulseAtMs)} ago`}</dd>
+  <dt>Last pulse</dt><dd>${loop.lastPulseAtMs === null ? 'none seen yet' : agoWords(data.now - loop.lastPulseAtMs)}</dd>
   <dt>Expected</dt><dd>a pulse every ${loop.periodMs} ms</dd>
   ${loop.inService ? '' : html`<dt>Out of service</dt><dd>${loop.serviceNote ?? ''}</dd>`}
 </dl>

@@ -4,7 +4,7 @@ import { parseInput } from '../api/parseInput.js';
 import type { Principal } from '../auth/principal.js';
 import { requireCsrf, requireRole } from '../auth/requestAuth.js';
 import { assertCommandOk } from '../http/commandOutcome.js';
-import { formBody, formField, requiredFormField } from '../http/formFields.js';
+import { formBody, formField, freeTextField, requiredFormField, requiredFreeTextField } from '../http/formFields.js';
 import { badInput, notFound } from '../webErrors.js';
 import type { WebContext } from '../webContext.js';
 import { renderAlarmPage } from './alarmPage.js';
@@ -81,7 +81,7 @@ export function registerPageRoutes(app: FastifyInstance, ctx: WebContext): void 
   app.post('/alarms/:id/ack', async (request, reply) => {
     const { principal, body } = operatorForm(request);
     const id = alarmIdOf(request);
-    const note = formField(body, 'note')?.trim() || null;
+    const note = freeTextField(body, 'note') ?? null;
     assertCommandOk(commands.acknowledge(id, principal.name, note), id);
     return reply.redirect(`/alarms/${id}?done=ack`, 303);
   });
@@ -94,7 +94,7 @@ export function registerPageRoutes(app: FastifyInstance, ctx: WebContext): void 
     if (!/^\d+$/.test(minutesText) || minutes < 1 || minutes > maxShelveMinutes) {
       throw badInput('minutes', `must be a whole number of minutes from 1 to ${maxShelveMinutes}`);
     }
-    const reason = requiredFormField(body, 'reason');
+    const reason = requiredFreeTextField(body, 'reason');
     assertCommandOk(commands.shelve(id, principal.name, minutes, reason), id);
     return reply.redirect(`/alarms/${id}?done=shelve`, 303);
   });
@@ -132,7 +132,7 @@ export function registerPageRoutes(app: FastifyInstance, ctx: WebContext): void 
   app.post('/loops/:id/out-of-service', async (request, reply) => {
     const { principal, body } = operatorForm(request);
     const id = loopIdOf(request);
-    const note = requiredFormField(body, 'note');
+    const note = requiredFreeTextField(body, 'note');
     assertCommandOk(commands.takeOutOfService(id, principal.name, note), id);
     return reply.redirect(`/loops/${encodeURIComponent(id)}?done=oos`, 303);
   });
@@ -140,7 +140,7 @@ export function registerPageRoutes(app: FastifyInstance, ctx: WebContext): void 
   app.post('/loops/:id/return-to-service', async (request, reply) => {
     const { principal, body } = operatorForm(request);
     const id = loopIdOf(request);
-    assertCommandOk(commands.returnToService(id, principal.name, formField(body, 'note')?.trim() || null), id);
+    assertCommandOk(commands.returnToService(id, principal.name, freeTextField(body, 'note') ?? null), id);
     return reply.redirect(`/loops/${encodeURIComponent(id)}?done=rts`, 303);
   });
 

@@ -73,6 +73,11 @@ export function spanWords(ms: number): string {
   return `${Math.floor(h / 24)} days`;
 }
 
+/** How long ago: "just now" under a second (never "0.0 s ago"), else "12 s ago", "5 min ago". */
+export function agoWords(ms: number): string {
+  return ms < 1000 ? 'just now' : `${spanWords(ms)} ago`;
+}
+
 /** How long a state has lasted: whole units, since tenths of a second mean nothing here. */
 export function sinceWords(ms: number): string {
   return ms < 60_000 ? 'under a minute' : spanWords(ms);

@@ -1,3 +1,4 @@
+import { countOf } from '../../model/plural.js';
 import type { LoopState } from '../../model/loopState.js';
 import type { LoopTimeline } from '../webPorts.js';
 import { html, trustedHtml, type SafeHtml } from './html.js';
@@ -126,7 +127,7 @@ export function renderTimeline(timeline: LoopTimeline, options: TimelineOptions)
     .map((s) => `${BOARD_STATE_LABEL[s].toLowerCase()} ${spanWords(totals.get(s)!)}`)
     .join(', ');
   const outMinutes = timeline.intervals.filter((p) => p.outOfTolerance > 0).length;
-  const label = `Last ${spanWords(span)}: ${summary || 'no data'}; ${outMinutes} minute(s) with pulse intervals out of range.`;
+  const label = `Last ${spanWords(span)}: ${summary || 'no data'}; ${outMinutes === 0 ? 'no minute' : countOf(outMinutes, 'minute')} with pulse intervals out of range.`;
 
   // Every string above is built from numbers and fixed words of this module; only `label` is text.
   return html`<figure class="timeline">

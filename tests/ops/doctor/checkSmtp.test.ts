@@ -35,13 +35,22 @@ function mail(port: number, smtp: Partial<NonNullable<MailConfig['smtp']>> = {})
 }
 
 describe('checkSmtp against a real SMTP server on loopback', () => {
-  it('connects and logs in without sending mail', async () => {
+  it('connects and logs in without sending mail, and warns that the login went out without TLS', async () => {
     const server = await startServer({ user: 'monitor', pass: 's3cret' });
     const result = await checkSmtp(mail(server.port), { PW_TEST_SMTP_PASS: 's3cret' }, verifyWithNodemailer);
-    expect(result).toMatchObject({ name: 'smtp', status: 'ok' });
+    // A plain-text AUTH exposes the password to anyone on the path (RFC 4954 §4 asks clients not to
+    // send it unprotected); loopback is no excuse, a relay may forward it onwards.
+    expect(result).toMatchObject({ name: 'smtp', status: 'warn' });
     expect(result.finding).toContain('logged in as monitor');
+    expect(result.finding).toContain('without TLS');
     expect(result.finding).toContain('no mail sent');
     expect(server.messages.length).toBe(0);
+  });
+
+  it('does not warn about a login without TLS when no login is configured', async () => {
+    const server = await startServer({});
+    const result = await checkSmtp(mail(server.port, { user: undefined, pass_env: undefined }), {}, verifyWithNodemailer);
+    expect(result).toMatchObject({ name: 'smtp', status: 'ok' });
   });
 
   it('fails a wrong password with a fix naming the settings', async () => {

@@ -26,6 +26,10 @@ const web = (listen: string): WebConfig => ({
   ack_link_ttl: 1,
   max_shelve: 1,
   login_attempts_per_minute: 5,
+  session_idle: 1,
+  allowed_hosts: [],
+  request_timeout: 1,
+  max_connections: 1,
 });
 
 describe('checkWebPort (real sockets on loopback)', () => {

@@ -28,6 +28,19 @@ describe('decideLoginThrottle', () => {
   it('allows up to the limit of failures per minute, per address and per name', () => {
     expect(decideLoginThrottle({ byIp: 4, byName: 4 }, 5)).toEqual({ allowed: true });
     expect(decideLoginThrottle({ byIp: 5, byName: 0 }, 5)).toEqual({ allowed: false, retryAfterSeconds: 60 });
-    expect(decideLoginThrottle({ byIp: 0, byName: 5 }, 5)).toEqual({ allowed: false, retryAfterSeconds: 60 });
+    expect(decideLoginThrottle({ byIp: 1, byName: 5 }, 5)).toEqual({ allowed: false, retryAfterSeconds: 60 });
+  });
+
+  it('the rule over every count: refused exactly when the address is at the limit, or the name is and this address has failed too (issue 9)', () => {
+    for (let limit = 1; limit <= 6; limit++) {
+      for (let byIp = 0; byIp <= limit + 2; byIp++) {
+        for (let byName = 0; byName <= limit + 2; byName++) {
+          const refused = byIp >= limit || (byName >= limit && byIp > 0);
+          expect(decideLoginThrottle({ byIp, byName }, limit).allowed, `limit ${limit} byIp ${byIp} byName ${byName}`).toBe(!refused);
+        }
+      }
+    }
+    // A clean address is never stopped by the name's failures alone: the real user signs in from their phone.
+    expect(decideLoginThrottle({ byIp: 0, byName: 10_000 }, 5)).toEqual({ allowed: true });
   });
 });

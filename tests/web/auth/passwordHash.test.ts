@@ -29,9 +29,14 @@ describe('scrypt', () => {
     expect(DEFAULT_SCRYPT_COST).toEqual({ log2N: 17, r: 8, p: 1 });
   });
 
-  it('asks for at least 8 characters (NIST SP 800-63B §3.1.1.2)', () => {
-    expect(passwordProblem('1234567')).toMatch(/at least 8/);
-    expect(passwordProblem('12345678')).toBeNull();
+  it('asks for at least 15 characters for single-factor sign-in (NIST SP 800-63B rev. 4 §3.1.1.2)', () => {
+    // Revision 4 (2025), §3.1.1.2 "Password Verifiers": at least 15 characters when the password is
+    // used as a single-factor authenticator, 8 when it is part of multi-factor authentication. The
+    // section number and wording are from memory of the published revision, not checked online here.
+    // Revision 3's rule (§5.1.1.2) was 8 characters; pairwatch signs in with a password alone.
+    expect(passwordProblem('a'.repeat(14))).toMatch(/at least 15 characters/);
+    expect(passwordProblem('a'.repeat(15))).toBeNull();
+    expect(passwordProblem('12345678')).not.toBeNull();
   });
 });
 
