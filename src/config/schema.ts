@@ -216,6 +216,11 @@ const imapSchema = z.strictObject({
   folder: z.string().min(1).default('INBOX'),
   /** Handled replies are moved here; without it they are only marked as read. */
   done_folder: z.string().min(1).optional(),
+  /**
+   * Put the reply token into the Reply-To address as well (alarms+TOKEN@domain, RFC 5233 subaddress).
+   * Off by default: only for a mailbox provider that delivers +tag addresses to the same mailbox.
+   */
+  reply_tag: z.boolean().default(false),
   /** Refuse replies whose DKIM signature does not verify (RFC 6376). */
   require_dkim: z.boolean().default(false),
 });

@@ -318,7 +318,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
    */
   function alarmActionsWith(inputs: readonly AlarmInput[], now: number, label: string, alongside: (s: Store, results: readonly AlarmStepResult[]) => void): AlarmStepResult[] {
     const { effects, results } = runAlarms(inputs, now);
-    writer.commit(label, (s) => {
+    commitAlarmWork(label, effects, now, (s) => {
       applyAlarmEffects(s, effects, now);
       alongside(s, results);
     });

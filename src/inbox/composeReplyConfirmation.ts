@@ -26,7 +26,8 @@ export interface ConfirmationEnvelope {
  * answer it in turn, and threaded under the reply.
  */
 export function composeReplyConfirmation(confirmation: ReplyConfirmation, envelope: ConfirmationEnvelope): OutboxMessage {
-  const base = confirmation.replySubject.replace(/^\s*((re|aw|sv|antw|réf)\s*:\s*)+/i, '');
+  // The spent token's tag is left off: the confirmation is not itself something to reply to.
+  const base = confirmation.replySubject.replace(/^\s*((re|aw|sv|antw|réf)\s*:\s*)+/i, '').replace(/\s*\[ref pw-[0-9a-z-]+\]/gi, '');
   const subject = `Re: ${base}`.slice(0, 300);
   const headers: Record<string, string> = { 'Auto-Submitted': 'auto-replied' };
   if (confirmation.replyMessageId) {

@@ -104,6 +104,9 @@ function autoReplyReason(reply: ParsedReply): string | null {
   return null;
 }
 
+/** List-Id (RFC 2919 §3) names a list; the RFC 2369 §3 fields are added by list servers to every message they pass on. */
+const LIST_FIELDS = ['list-id', 'list-post', 'list-unsubscribe', 'list-subscribe', 'list-help', 'list-owner', 'list-archive'] as const;
+
 /** Signed for this mail and recipient, expired or not. */
 function signedFor(token: string, mail: KnownMail, recipient: string, secret: Buffer, now: number): boolean {
   const check = checkReplyToken(token, { messageId: mail.messageId, recipient }, secret, now);
@@ -114,15 +117,19 @@ export function decideReply(reply: ParsedReply, ctx: ReplyDecisionContext): Repl
   const named = [...reply.inReplyTo, ...[...reply.references].reverse()];
   const ownDomain = `@${ctx.ownMessageIdDomain.toLowerCase()}>`;
   const ours = (id: string) => ctx.knownMails.has(id) || id.toLowerCase().endsWith(ownDomain);
-  const tokens = findReplyTokens(`${reply.subject}\n${reply.text}`);
+  // The token rides in the subject tag, the quote, and (with reply_tag) the Reply-To address the reply went to.
+  const addressed = ['to', 'cc', 'delivered-to', 'x-original-to'].flatMap((name) => headerValues(reply, name)).join('\n');
+  const tokens = findReplyTokens(`${reply.subject}\n${reply.text}\n${addressed}`);
+  const mentionsOurs = findReplyTokens(reply.attachedText).length > 0 || (reply.attachedText.match(/<[^<>\s]+>/g) ?? []).some(ours);
   const fromOurselves = (reply.from !== null && ctx.ownAddresses.includes(reply.from)) || (reply.messageId?.toLowerCase().endsWith(ownDomain) ?? false);
-  if (!named.some(ours) && tokens.length === 0 && !fromOurselves) return { verdict: 'not-ours' };
+  if (!named.some(ours) && tokens.length === 0 && !fromOurselves && !mentionsOurs) return { verdict: 'not-ours' };
 
   if (fromOurselves) return refuse('own-message', 'sent by this monitor');
   if (isDeliveryReport(reply)) return refuse('delivery-report', 'a delivery status notification (bounce)');
   const auto = autoReplyReason(reply);
   if (auto) return refuse('auto-reply', `an automatic reply (${auto})`);
-  if (headerValues(reply, 'list-id').length > 0) return refuse('mailing-list', 'mailing-list mail (List-Id)');
+  const listField = LIST_FIELDS.find((name) => headerValues(reply, name).length > 0);
+  if (listField) return refuse('mailing-list', `mailing-list mail (${listField})`);
 
   const words = firstParagraph(reply.text);
   const from = reply.from;

@@ -48,6 +48,8 @@ export function createImapClient(imap: ImapConfig, pass: string, tls?: Connectio
     secure: imap.secure,
     auth: { user: imap.user, pass },
     logger: false,
+    // imapflow's default waits 15 s of quiet before IDLE; a reply should not wait that long to be seen.
+    autoIdleDelay: 500,
     ...(tls ? { tls } : {}),
   });
 }
@@ -63,19 +65,28 @@ export function createImapWatcher(options: ImapWatcherOptions) {
   let wake: (() => void) | null = null;
   let running: Promise<void> | null = null;
 
+  // New mail announced while a read is under way must not wait for the next poll: remembered here.
+  let woken = false;
   const signal = () => {
     const w = wake;
     wake = null;
-    w?.();
+    if (w) w();
+    else woken = true;
   };
   const sleep = (ms: number) =>
     new Promise<void>((resolve) => {
+      if (woken) {
+        woken = false;
+        resolve();
+        return;
+      }
       const timer = setTimeout(() => {
         wake = null;
         resolve();
       }, ms);
       wake = () => {
         clearTimeout(timer);
+        woken = false;
         resolve();
       };
     });
@@ -107,6 +118,7 @@ export function createImapWatcher(options: ImapWatcherOptions) {
     const fetched = await c.fetchAll(`${from}:*`, { uid: true, source: true }, { uid: true });
     for (const msg of fetched.filter((m) => m.uid >= from && m.source).sort((a, b) => a.uid - b.uid)) {
       const message: FetchedMessage = { folder: imap.folder, uidValidity, uid: msg.uid, source: msg.source! };
+      logger.debug({ uid: msg.uid, folder: imap.folder }, 'reply inbox: fetched a message');
       options.beforeHandle?.(message);
       const outcome = await options.handle(message);
       await mark(c, msg.uid, outcome.mark, outcome.messageKey);
@@ -121,29 +133,38 @@ export function createImapWatcher(options: ImapWatcherOptions) {
     const closed = new Promise<void>((resolve) => c.once('close', () => resolve()));
     try {
       await c.connect();
-      const lock = await c.getMailboxLock(imap.folder);
-      try {
-        failures = 0;
-        if (failing) {
-          failing = false;
-          options.onRecovered();
-        }
-        logger.info({ host: imap.host, folder: imap.folder, idle: c.capabilities.has('IDLE') }, `reply inbox: watching ${imap.folder} on ${imap.host}`);
-        let open = true;
-        void closed.then(() => {
-          open = false;
-          signal();
-        });
-        await drain(c);
-        while (!stopped && open && c.usable) {
-          await sleep(pollMs);
-          if (stopped || !open || !c.usable) break;
-          await drain(c);
-        }
-        if (!stopped) throw new Error('the server closed the connection');
-      } finally {
-        lock.release();
+      if (imap.done_folder) {
+        // A missing done_folder would fail every move; made once here, beside the folder being watched.
+        const made = await c.mailboxCreate(imap.done_folder);
+        if (made.created) logger.info({ folder: imap.done_folder }, `reply inbox: created the folder ${imap.done_folder} for handled replies`);
       }
+      // The folder is locked only while it is read: imapflow starts IDLE (RFC 2177) only when no lock is held.
+      const drainLocked = async () => {
+        const lock = await c.getMailboxLock(imap.folder);
+        try {
+          await drain(c);
+        } finally {
+          lock.release();
+        }
+      };
+      let open = true;
+      void closed.then(() => {
+        open = false;
+        signal();
+      });
+      await drainLocked();
+      failures = 0;
+      if (failing) {
+        failing = false;
+        options.onRecovered();
+      }
+      logger.info({ host: imap.host, folder: imap.folder, idle: c.capabilities.has('IDLE') }, `reply inbox: watching ${imap.folder} on ${imap.host}`);
+      while (!stopped && open && c.usable) {
+        await sleep(pollMs);
+        if (stopped || !open || !c.usable) break;
+        await drainLocked();
+      }
+      if (!stopped) throw new Error('the server closed the connection');
     } finally {
       client = null;
       await c.logout().catch(() => c.close());

@@ -18,6 +18,11 @@ export interface ParsedReply {
   reportType: string | null;
   /** The plain-text body, quoted text included. */
   text: string;
+  /**
+   * Text of the parts a mail system attaches when it reports on a message: message/delivery-status,
+   * text/rfc822-headers, message/rfc822 (RFC 3464 §2, RFC 6522). A bounce names our mail only there.
+   */
+  attachedText: string;
   auth: AuthVerdict;
 }
 

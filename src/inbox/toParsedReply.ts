@@ -2,6 +2,7 @@ import type { ParsedMail } from 'mailparser';
 import type { AuthVerdict, ParsedReply } from './parsedReply.js';
 
 const MESSAGE_ID = /<[^<>\s]+>/g;
+const REPORT_PARTS = new Set(['message/delivery-status', 'message/global-delivery-status', 'text/rfc822-headers', 'message/rfc822', 'message/global-headers']);
 
 /** mailparser's result as the plain data the reply decision takes. */
 export function toParsedReply(mail: ParsedMail, auth: AuthVerdict): ParsedReply {
@@ -25,6 +26,10 @@ export function toParsedReply(mail: ParsedMail, auth: AuthVerdict): ParsedReply 
     contentType: (contentType?.value ?? 'text/plain').toLowerCase(),
     reportType: contentType?.params?.['report-type']?.toLowerCase() ?? null,
     text: mail.text ?? '',
+    attachedText: mail.attachments
+      .filter((a) => REPORT_PARTS.has(a.contentType.toLowerCase()))
+      .map((a) => a.content.subarray(0, 64 * 1024).toString('utf8'))
+      .join('\n'),
     auth,
   };
 }

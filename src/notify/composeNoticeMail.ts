@@ -261,10 +261,13 @@ export function composeNoticeMail(digest: Digest, ctx: NoticeComposeContext): Ou
   const messageId = ctx.newMessageId();
   const reply = ctx.reply && entries.some((e) => e.alarm && STATES_WITH_ACK_LINK.has(e.alarm.state)) ? ctx.reply : null;
   let replySubject = subject;
+  let replyTo: string | null = null;
   if (reply) {
     // The token rides in the subject as well as the body, so a reply whose client trims the quote still carries it.
     const token = signReplyToken({ messageId, recipient: contact.id, expiresAt: ctx.now + reply.ttlMs }, reply.secret);
     replySubject = `${subject} [ref ${token}]`;
+    // With reply_tag the token is also the address's subaddress (RFC 5233), for clients that rewrite the subject too.
+    replyTo = reply.tagAddress ? reply.address.replace(/@/, `+${token}@`) : reply.address;
     textParts.push(REPLY_HINT, `Reference: ${token}`, '');
     htmlParts.push(`<p><strong>${escapeHtml(REPLY_HINT)}</strong><br><small>Reference: ${token}</small></p>`);
   }
@@ -273,7 +276,7 @@ export function composeNoticeMail(digest: Digest, ctx: NoticeComposeContext): Ou
   htmlParts.push(mailFooterHtml(ctx.siteName, ctx.publicUrl, !!ctx.reply));
 
   const headers: Record<string, string> = { 'Auto-Submitted': 'auto-generated' };
-  if (reply) headers['Reply-To'] = reply.address;
+  if (replyTo) headers['Reply-To'] = replyTo;
   const threads = [...new Set(entries.map((e) => e.alarm?.threadMessageId).filter((id): id is string => !!id))];
   if (threads.length > 0) {
     // RFC 5322 §3.6.4: In-Reply-To names the parent(s); References carries the thread. The parent is

@@ -32,7 +32,7 @@ export interface NoticeSettings {
   /** Signs acknowledge links; null leaves them out. */
   ack: { secret: Buffer; ttlMs: number; newTokenId: () => string } | null;
   /** Signs reply tokens and names the mailbox replies go to (mail.imap); null: replies are not read. */
-  reply?: { secret: Buffer; ttlMs: number; address: string } | null | undefined;
+  reply?: { secret: Buffer; ttlMs: number; address: string; tagAddress?: boolean } | null | undefined;
   newMessageId: () => string;
 }
 
@@ -54,7 +54,7 @@ export function noticeSettingsFromConfig(config: SiteConfig, ackSecret: Buffer |
     decoders: config.decoders.map((decoder) => ({ id: decoder.id, name: decoder.name ?? null })),
     ack: ackSecret ? { secret: ackSecret, ttlMs: config.web.ack_link_ttl, newTokenId: newAckTokenId } : null,
     newMessageId: createMessageIdFactory(messageIdDomain(config.mail.from)),
-    reply: ackSecret && config.mail.imap ? { secret: ackSecret, ttlMs: config.web.ack_link_ttl, address: replyAddressFor(config) } : null,
+    reply: ackSecret && config.mail.imap ? { secret: ackSecret, ttlMs: config.web.ack_link_ttl, address: replyAddressFor(config), tagAddress: config.mail.imap.reply_tag } : null,
   };
 }
 

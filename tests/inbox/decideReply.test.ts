@@ -20,7 +20,7 @@ const ctx = (over: Partial<ReplyDecisionContext> = {}): ReplyDecisionContext => 
 const reply = (over: Partial<ParsedReply> = {}): ParsedReply => ({
   messageId: '<r1@mail.farm.test>', from: 'office@farm.test', subject: `Re: [ALARM] Farm: Barn tripped [ref ${token}]`,
   inReplyTo: [mailId], references: [mailId], headers: new Map(), contentType: 'text/plain', reportType: null,
-  text: `OK, on my way\n\nOn Tue someone wrote:\n> Reference: ${token}\n`, auth: { dkim: 'none', summary: 'none' }, ...over,
+  text: `OK, on my way\n\nOn Tue someone wrote:\n> Reference: ${token}\n`, attachedText: '', auth: { dkim: 'none', summary: 'none' }, ...over,
 });
 
 describe('decideReply', () => {
