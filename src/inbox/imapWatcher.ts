@@ -41,8 +41,9 @@ export function imapPassword(imap: ImapConfig, env: NodeJS.ProcessEnv): string {
   return pass;
 }
 
-export function createImapClient(imap: ImapConfig, pass: string, tls?: ConnectionOptions): ImapFlow {
+export function createImapClient(imap: ImapConfig, pass: string, tls?: ConnectionOptions, timeoutMs?: number): ImapFlow {
   return new ImapFlow({
+    ...(timeoutMs !== undefined ? { connectionTimeout: timeoutMs, greetingTimeout: timeoutMs } : {}),
     host: imap.host,
     port: imap.port,
     secure: imap.secure,
