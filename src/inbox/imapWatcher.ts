@@ -104,6 +104,8 @@ export function createImapWatcher(options: ImapWatcherOptions) {
   }
 
   async function drain(c: ImapFlow): Promise<void> {
+    // A poll must ask: the server's news of new mail (EXISTS) comes only in answer to a command.
+    await c.noop();
     const mailbox = c.mailbox;
     if (!mailbox) throw new Error(`folder ${imap.folder} is not open`);
     const uidValidity = Number(mailbox.uidValidity);
