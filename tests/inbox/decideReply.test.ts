@@ -54,4 +54,19 @@ describe('decideReply', () => {
   it('refuses when DKIM is required and fails', () => {
     expect(decideReply(reply(), ctx({ requireDkim: true }))).toMatchObject({ reason: 'dkim-failed' });
   });
+  it('RFC 2369 list fields mark list mail even without List-Id', () => {
+    const headers = new Map([['list-unsubscribe', ['<mailto:leave@lists.farm.test>']]]);
+    expect(decideReply(reply({ headers }), ctx())).toMatchObject({ verdict: 'refused', reason: 'mailing-list' });
+  });
+
+  it('a bounce that names our mail only in its returned header part (RFC 3464 §2) is ours, and refused', () => {
+    const bounce = reply({ from: 'delivery@mx.farm.test', subject: 'Undelivered Mail', inReplyTo: [], references: [], text: 'could not be delivered', contentType: 'multipart/report', attachedText: `Message-ID: ${mailId}\n` });
+    expect(decideReply(bounce, ctx())).toMatchObject({ verdict: 'refused', reason: 'delivery-report' });
+  });
+
+  it('the token in the address the reply went to (a +subaddress, RFC 5233) counts when quote and subject tag are gone', () => {
+    const headers = new Map([['to', [`alarms+${token}@farm.test`]]]);
+    expect(decideReply(reply({ subject: 'Re: barn', text: 'ok', headers }), ctx())).toMatchObject({ verdict: 'acknowledge' });
+    expect(decideReply(reply({ subject: 'Re: barn', text: 'ok' }), ctx())).toMatchObject({ verdict: 'refused', reason: 'no-token' });
+  });
 });
