@@ -171,6 +171,8 @@ const contactSchema = z.strictObject({
   id,
   name: z.string().min(1).max(80),
   email: z.email('must be an email address such as office@example.org'),
+  /** Web user name this contact signs in as; a mail reply may shelve only when that user is an operator or admin. */
+  user: z.string().min(1).max(80).optional(),
 });
 
 const stepSchema = z.strictObject({
@@ -203,6 +205,26 @@ const mailbox = z.string().superRefine((text, ctx) => {
   if (!parsed.ok) ctx.addIssue({ code: 'custom', message: parsed.reason });
 });
 
+/** The mailbox that receives replies to alarm mail; its presence turns on acknowledging by reply. */
+const imapSchema = z.strictObject({
+  host: z.string().min(1),
+  /** 993 is IMAP over TLS from the first byte (RFC 8314 §3.3). */
+  port: wholeNumber(1, 65535).default(993),
+  secure: z.boolean().default(true),
+  user: z.string().min(1),
+  pass_env: z.string().regex(/^[A-Z_][A-Z0-9_]*$/, 'must be an environment variable name (capitals, digits and _, e.g. PAIRWATCH_IMAP_PASS)'),
+  folder: z.string().min(1).default('INBOX'),
+  /** Handled replies are moved here; without it they are only marked as read. */
+  done_folder: z.string().min(1).optional(),
+  /**
+   * Put the reply token into the Reply-To address as well (alarms+TOKEN@domain, RFC 5233 subaddress).
+   * Off by default: only for a mailbox provider that delivers +tag addresses to the same mailbox.
+   */
+  reply_tag: z.boolean().default(false),
+  /** Refuse replies whose DKIM signature does not verify (RFC 6376). */
+  require_dkim: z.boolean().default(false),
+});
+
 const mailSchema = z
   .strictObject({
     from: mailbox.default('pairwatch <pairwatch@localhost>'),
@@ -214,6 +236,7 @@ const mailSchema = z
     retry_max: durationSchema({ min: SECOND, max: DAY }).default(900_000),
     /** Consecutive failed attempts before "mail failing" is raised. */
     failing_after: wholeNumber(1, 100).default(3),
+    imap: imapSchema.optional(),
   })
   .prefault({ from: 'pairwatch <pairwatch@localhost>' });
 
@@ -333,5 +356,6 @@ export type LoopConfig = SiteConfig['loops'][number];
 export type ContactConfig = SiteConfig['contacts'][number];
 export type EscalationPolicyConfig = SiteConfig['escalation'][string];
 export type MailConfig = SiteConfig['mail'];
+export type ImapConfig = NonNullable<MailConfig['imap']>;
 export type WebConfig = SiteConfig['web'];
 export type MqttConfig = NonNullable<SiteConfig['mqtt']>;

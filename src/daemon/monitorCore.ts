@@ -310,6 +310,22 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     return result;
   }
 
+  /**
+   * Several actions and the caller's own rows in one transaction: a mail reply's acknowledgements
+   * commit together with the spent token, the inbox offset and the confirmation mail, or not at all.
+   * `alongside` sees every result (refused ones too) and must only touch the store.
+   */
+  function alarmActionsWith(inputs: readonly AlarmInput[], now: number, label: string, alongside: (s: Store, results: readonly AlarmStepResult[]) => void): AlarmStepResult[] {
+    const { effects, results } = runAlarms(inputs, now);
+    commitAlarmWork(label, effects, now, (s) => {
+      applyAlarmEffects(s, effects, now);
+      alongside(s, results);
+    });
+    logAlarmEffects(effects);
+    if (effects.length > 0) options.onChange?.('alarms');
+    return results;
+  }
+
   function raiseSystem(condition: Condition, now: number): void {
     alarmAction(raiseFor(loops, 'system', null, condition), now);
   }
@@ -413,6 +429,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     },
     linkStatus,
     alarmAction,
+    alarmActionsWith,
     raiseSystem,
     clearSystem,
     tick,

@@ -35,6 +35,9 @@ import { startSitePublisher, type SitePublisher } from '../mqtt/sitePublisher.js
 import { findUnsavedAlarms, reserveSpace, writeUnsavedAlarms } from './writeUnsavedAlarms.js';
 import { runMaintenance } from './runMaintenance.js';
 import { countOf } from '../model/plural.js';
+import { createReplyHandler } from '../inbox/handleInboxMessage.js';
+import { createImapWatcher, type ImapWatcher } from '../inbox/imapWatcher.js';
+import { messageIdDomain } from '../notify/messageId.js';
 
 /**
  * Wires the monitor together — the one place where the pure core meets serial ports, SQLite, mail
@@ -54,6 +57,8 @@ export interface StartMonitorOptions {
   version?: string;
   /** Send the "monitoring started" mail (default true). */
   announce?: boolean;
+  /** Reply inbox overrides (tests): TLS settings, poll interval, retry timing. */
+  inbox?: { tls?: import('node:tls').ConnectionOptions; pollMs?: number; retryFirstMs?: number; retryMaxMs?: number; failingAfter?: number };
 }
 
 const FAST_TICK_MS = 250;
@@ -421,6 +426,40 @@ export async function startMonitor(options: StartMonitorOptions) {
     }),
   );
 
+  // --- reply inbox (mail.imap): a reply to an alarm mail acknowledges it ---------------------------
+  let inbox: ImapWatcher | null = null;
+  if (config.mail.imap) {
+    const replies = createReplyHandler({
+      config,
+      store,
+      writer,
+      core: monitorCore,
+      secret: ackSecret,
+      newMessageId: noticeSettings.newMessageId,
+      ownMessageIdDomain: `pairwatch.${messageIdDomain(config.mail.from)}`,
+      now,
+      logger,
+    });
+    inbox = createImapWatcher({
+      imap: config.mail.imap,
+      env,
+      store,
+      handle: async (message) => {
+        const outcome = await replies.handle(message);
+        if (outcome.mark === 'handled') wakeNotifications();
+        return outcome;
+      },
+      logger,
+      now,
+      initiallyFailing: monitorCore.openAlarms().some((a) => a.condition === 'inbox-failing' && a.active),
+      onFailing: (reason) => monitorCore.raiseSystem('inbox-failing', now()),
+      onRecovered: () => monitorCore.clearSystem('inbox-failing', now()),
+      ...options.inbox,
+    });
+    inbox.start();
+  }
+  // --- end reply inbox ---
+
   if (options.announce !== false) lifecycleMail('started', null);
   logger.info({ site: config.site.name, loops: config.loops.length, decoders: config.decoders.length }, `monitoring ${config.site.name}: ${config.loops.length} ${config.loops.length === 1 ? 'loop' : 'loops'}`);
 
@@ -432,6 +471,7 @@ export async function startMonitor(options: StartMonitorOptions) {
     for (const timer of timers) clearTimeout(timer);
     if (notifyWake) clearTimeout(notifyWake);
     stallGuard.stop();
+    await inbox?.stop();
     await Promise.allSettled(links.map((link) => link.close()));
     monitorCore.flushEdges();
     lifecycleMail('stopped', reason);
@@ -456,7 +496,7 @@ export async function startMonitor(options: StartMonitorOptions) {
     logger.info({ reason }, 'monitor stopped');
   }
 
-  return { core: monitorCore, store, writer, web, worker, read, commands, address, stop, mqtt: publisher, runNotifications, dataDir, mailFolder: config.mail.smtp ? null : resolve(dropFolderFor(config)) };
+  return { inbox, core: monitorCore, store, writer, web, worker, read, commands, address, stop, mqtt: publisher, runNotifications, dataDir, mailFolder: config.mail.smtp ? null : resolve(dropFolderFor(config)) };
 }
 
 export type Monitor = Awaited<ReturnType<typeof startMonitor>>;

@@ -15,6 +15,7 @@ export const CONDITIONS = [
   'decoder-fault',
   'mail-failing',
   'storage-failing',
+  'inbox-failing',
   'broker-unreachable',
   'site-not-reporting',
 ] as const;
@@ -30,6 +31,7 @@ export const CONDITION_PRIORITY = {
   'decoder-fault': 'trouble',
   'mail-failing': 'system',
   'storage-failing': 'system',
+  'inbox-failing': 'system',
   'broker-unreachable': 'system',
   /** Raised by the estate board only, about a site it watches. */
   'site-not-reporting': 'trouble',
@@ -52,6 +54,7 @@ export const CONDITION_NAME = {
   'decoder-fault': 'decoder fault',
   'mail-failing': 'mail failing',
   'storage-failing': 'storage failing',
+  'inbox-failing': 'reply inbox failing',
   'broker-unreachable': 'broker unreachable',
   'site-not-reporting': 'site not reporting',
 } as const satisfies Record<Condition, string>;
@@ -94,6 +97,10 @@ export const CONDITION_TEXT = {
   'storage-failing': {
     words: 'storage failing: the monitor cannot write its database',
     check: 'Check free disk space and the data folder permissions; run `pairwatch doctor`.',
+  },
+  'inbox-failing': {
+    words: 'reply inbox failing: the monitor cannot read the mailbox that replies to alarm mail go to, so a reply cannot acknowledge',
+    check: 'Check mail.imap (host, user, the app password in pass_env) and run `pairwatch doctor`; acknowledge on the board meanwhile.',
   },
   'broker-unreachable': {
     words: 'broker unreachable: the monitor cannot hand its states and alarm events to the MQTT broker',

@@ -3,6 +3,7 @@ import { CONDITION_NAME, CONDITION_TEXT, PRIORITY_RANK, type Priority } from '..
 import { alarmStanding, BACK_TO_NORMAL_NEEDS_ACK, STANDING_WORDS } from '../model/alarmStanding.js';
 import { checkAdvice, decoderLinkOf, type DecoderLink } from '../model/decoderLink.js';
 import { signAckToken } from './ackToken.js';
+import { signReplyToken } from './replyToken.js';
 import { escapeHtml } from './escapeHtml.js';
 import { formatElapsed, formatSiteAndUtc } from './formatSiteTime.js';
 import { mailFooterHtml, mailFooterText, mailPageHtml, PRIORITY_HEADING, PRIORITY_TAG } from './mailLayout.js';
@@ -22,6 +23,7 @@ export interface NoticeComposeContext extends NoticeSettings {
 export const CONDITION_SHORT = CONDITION_NAME;
 
 const SUBJECT_MAX = 160;
+export const REPLY_HINT = 'Reply with OK to acknowledge (you may add a note).';
 const STATES_WITH_ACK_LINK = new Set(['unacknowledged', 'returned-unacknowledged']);
 
 interface Entry {
@@ -253,10 +255,26 @@ export function composeNoticeMail(digest: Digest, ctx: NoticeComposeContext): Ou
       htmlParts.push(htmlBlock(facts));
     }
   }
-  textParts.push(mailFooterText(ctx.siteName, ctx.publicUrl));
-  htmlParts.push(mailFooterHtml(ctx.siteName, ctx.publicUrl));
+  // --- reply to acknowledge (mail.imap) ---
+  const messageId = ctx.newMessageId();
+  const reply = ctx.reply && entries.some((e) => e.alarm && STATES_WITH_ACK_LINK.has(e.alarm.state)) ? ctx.reply : null;
+  let replySubject = subject;
+  let replyTo: string | null = null;
+  if (reply) {
+    // The token rides in the subject as well as the body, so a reply whose client trims the quote still carries it.
+    const token = signReplyToken({ messageId, recipient: contact.id, expiresAt: ctx.now + reply.ttlMs }, reply.secret);
+    replySubject = `${subject} [ref ${token}]`;
+    // With reply_tag the token is also the address's subaddress (RFC 5233), for clients that rewrite the subject too.
+    replyTo = reply.tagAddress ? reply.address.replace(/@/, `+${token}@`) : reply.address;
+    textParts.push(REPLY_HINT, `Reference: ${token}`, '');
+    htmlParts.push(`<p><strong>${escapeHtml(REPLY_HINT)}</strong><br><small>Reference: ${token}</small></p>`);
+  }
+  // --- end reply to acknowledge ---
+  textParts.push(mailFooterText(ctx.siteName, ctx.publicUrl, !!ctx.reply));
+  htmlParts.push(mailFooterHtml(ctx.siteName, ctx.publicUrl, !!ctx.reply));
 
   const headers: Record<string, string> = { 'Auto-Submitted': 'auto-generated' };
+  if (replyTo) headers['Reply-To'] = replyTo;
   const threads = [...new Set(entries.map((e) => e.alarm?.threadMessageId).filter((id): id is string => !!id))];
   if (threads.length > 0) {
     // RFC 5322 §3.6.4: In-Reply-To names the parent(s); References carries the thread. The parent is
@@ -265,12 +283,12 @@ export function composeNoticeMail(digest: Digest, ctx: NoticeComposeContext): Ou
     headers['References'] = threads.join(' ');
   }
   return {
-    messageId: ctx.newMessageId(),
+    messageId,
     kind: 'notice',
     priority: top,
     from: ctx.from,
     to: [mailbox(contact)],
-    subject,
+    subject: replySubject,
     text: textParts.join('\n'),
     html: mailPageHtml(subject, htmlParts.join('\n')),
     headers,

@@ -10,17 +10,18 @@ export const PRIORITY_HEADING = { alarm: 'ALARM', trouble: 'TROUBLE', system: 'S
 export const SAFETY_CAUTION =
   'pairwatch is property monitoring, not a life-safety system: it does not replace fire, gas or medical alarms.';
 
-export function mailFooterText(siteName: string, publicUrl: string): string {
+/** `repliesRead`: mail.imap is set, so the footer must not say replies go unread. */
+export function mailFooterText(siteName: string, publicUrl: string, repliesRead = false): string {
   return [
     '--',
-    `Sent automatically by pairwatch at ${siteName}; replies are not read.`,
+    `Sent automatically by pairwatch at ${siteName}; ${repliesRead ? 'a reply is read by the monitor, not by a person' : 'replies are not read'}.`,
     `The board: ${publicUrl}/`,
     SAFETY_CAUTION,
   ].join('\n');
 }
 
-export function mailFooterHtml(siteName: string, publicUrl: string): string {
-  return `<hr><p style="font-size:13px;color:#333">Sent automatically by pairwatch at ${escapeHtml(siteName)}; replies are not read.<br>The board: <a href="${escapeHtml(publicUrl)}/">${escapeHtml(publicUrl)}/</a><br>${escapeHtml(SAFETY_CAUTION)}</p>`;
+export function mailFooterHtml(siteName: string, publicUrl: string, repliesRead = false): string {
+  return `<hr><p style="font-size:13px;color:#333">Sent automatically by pairwatch at ${escapeHtml(siteName)}; ${repliesRead ? 'a reply is read by the monitor, not by a person' : 'replies are not read'}.<br>The board: <a href="${escapeHtml(publicUrl)}/">${escapeHtml(publicUrl)}/</a><br>${escapeHtml(SAFETY_CAUTION)}</p>`;
 }
 
 /** A whole HTML document around already-escaped body markup. */

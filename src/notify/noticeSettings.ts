@@ -33,6 +33,8 @@ export interface NoticeSettings {
   decoders?: readonly DecoderRef[] | undefined;
   /** Signs acknowledge links; null leaves them out. */
   ack: { secret: Buffer; ttlMs: number; newTokenId: () => string } | null;
+  /** Signs reply tokens and names the mailbox replies go to (mail.imap); null: replies are not read. */
+  reply?: { secret: Buffer; ttlMs: number; address: string; tagAddress?: boolean } | null | undefined;
   newMessageId: () => string;
 }
 
@@ -54,7 +56,15 @@ export function noticeSettingsFromConfig(config: SiteConfig, ackSecret: Buffer |
     decoders: config.decoders.map((decoder) => ({ id: decoder.id, name: decoder.name ?? null, port: decoder.port })),
     ack: ackSecret ? { secret: ackSecret, ttlMs: config.web.ack_link_ttl, newTokenId: newAckTokenId } : null,
     newMessageId: createMessageIdFactory(messageIdDomain(config.mail.from)),
+    reply: ackSecret && config.mail.imap ? { secret: ackSecret, ttlMs: config.web.ack_link_ttl, address: replyAddressFor(config), tagAddress: config.mail.imap.reply_tag } : null,
   };
+}
+
+/** Where replies should go: the IMAP login when it is an address (it usually is), else the From address. */
+export function replyAddressFor(config: SiteConfig): string {
+  const user = config.mail.imap?.user ?? '';
+  if (/^[^\s@<>]+@[^\s@<>]+$/.test(user)) return user;
+  return /<([^<>]+)>\s*$/.exec(config.mail.from)?.[1] ?? config.mail.from.trim();
 }
 
 /** A mailbox for a To field, with the display name quoted so commas or quotes in it cannot split the address. */

@@ -1,7 +1,7 @@
 import type { Priority } from '../model/condition.js';
 
 /** What a mail in the outbox is for. */
-export const OUTBOX_KINDS = ['notice', 'daily-report', 'lifecycle', 'test'] as const;
+export const OUTBOX_KINDS = ['notice', 'daily-report', 'lifecycle', 'test', 'reply-confirmation'] as const;
 export type OutboxKind = (typeof OUTBOX_KINDS)[number];
 
 /**

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/loopSettings.js';
+import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/index.js';
 import { indexSite, initialSiteState, stepSite } from '../../src/site/siteStep.js';
 import type { SiteEffect, SiteState } from '../../src/site/siteTypes.js';
 import { wireScript } from '../helpers/wireScript.js';

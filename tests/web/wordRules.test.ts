@@ -70,6 +70,7 @@ const ENGINE_NOTES: Record<AuditAction, string | null> = {
   'mail-sent': '[ALARM] Larkfield Smallholding: Seed store — tripped → office@larkfield.example (written to /var/lib/pairwatch/outbox/0001.eml)',
   'mail-failed': '[ALARM] Larkfield Smallholding: Seed store — tripped: attempt 2 failed: connect ECONNREFUSED 127.0.0.1:25; next try 2026-12-01T20:05:00.000Z',
   close: null,
+  'mail-reply': 'reply <abc@mail.example> from office@larkfield.example; dkim=pass spf=pass',
 };
 
 let web: TestWeb;

@@ -4,6 +4,7 @@ import { checkConfig } from './checkConfig.js';
 import { checkDecoder, type DecoderCheckDeps } from './checkDecoder.js';
 import { checkDiskSpace, type DiskDeps } from './checkDiskSpace.js';
 import type { CheckResult } from './checkResult.js';
+import { checkImap } from './checkImap.js';
 import { checkSmtp, type SmtpVerifier } from './checkSmtp.js';
 import { checkWebPort, type WebPortDeps } from './checkWebPort.js';
 
@@ -39,6 +40,7 @@ export async function runDoctor(
       for (const r of await checkDecoder(decoder, Math.max(0, ...inputs), deps.decoder)) report(r);
     }
     report(await checkSmtp(config.mail, env, deps.verifySmtp));
+    if (config.mail.imap) report(await checkImap(config.mail, env));
     report(await checkWebPort(config.web, deps.web));
     report(await checkDiskSpace(config.storage.path, deps.disk));
   }

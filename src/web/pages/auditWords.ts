@@ -104,6 +104,11 @@ export function auditWords(row: AuditRow, contacts: ContactNames, timeZone: stri
     }
     case 'close':
       return monitor('closed');
+    case 'mail-reply': {
+      // "reply <message key> from <address>; <sender check summary>"
+      const from = /from (\S+?);/.exec(note);
+      return monitor(from ? `reply by mail from ${namesOf(from[1]!, contacts)}` : 'reply by mail');
+    }
   }
 }
 
