@@ -433,6 +433,7 @@ export async function startMonitor(options: StartMonitorOptions) {
     stallGuard.stop();
     await Promise.allSettled(links.map((link) => link.close()));
     monitorCore.flushEdges();
+    monitorCore.closeSessions(now(), `monitor ${reason}`);
     lifecycleMail('stopped', reason);
     writer.flush();
     // Try to get pending mail out, but never past the deadline: the outbox keeps what is left.
