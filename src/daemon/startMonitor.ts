@@ -16,6 +16,7 @@ import { createMetrics } from '../ops/metrics.js';
 import { createStallGuard } from '../ops/stallGuard.js';
 import { createDurableWriter } from '../store/createDurableWriter.js';
 import { openStore, type Store } from '../store/openStore.js';
+import { integrityProblems, restoreAdvice } from '../store/checkPairwatchDatabase.js';
 import { makePrivateDir } from '../store/privateFiles.js';
 import { enqueueOutbox, recordMailAudit } from '../store/outboxRepo.js';
 import { insertPendingNotice } from '../store/pendingNoticeRepo.js';
@@ -143,6 +144,15 @@ export async function startMonitor(options: StartMonitorOptions) {
     ...(config.mqtt && { onAlarmEffects: (s, effects, t) => void enqueueAlarmEvents(s.db, alarmEventsOf(effects), t) }),
   });
   const monitorCore = core;
+  // quick_check at every start (issue 16 item 10): damage in the middle of the file is otherwise only
+  // found when a query happens to read that page. The full integrity_check runs in the daily maintenance.
+  const damage = integrityProblems(store.db, 'quick');
+  if (damage.length > 0) reportDamage('quick_check', damage);
+  else monitorCore.clearSystem('storage-damaged', startedAt);
+  function reportDamage(check: string, problems: readonly string[]): void {
+    logger.error({ problems }, `the database ${dbPath} is damaged (${check}: ${problems.slice(0, 3).join('; ')}); ${restoreAdvice(dbPath)}`);
+    monitorCore.raiseSystem('storage-damaged', now());
+  }
 
   let mailFailures = 0;
   const worker = createOutboxWorker({
@@ -396,7 +406,16 @@ export async function startMonitor(options: StartMonitorOptions) {
   const maintenance = () => {
     if (stopping) return;
     stallGuard
-      .run('maintenance', () => runMaintenance({ config, store, now: now(), logger }))
+      .run('maintenance', () =>
+        runMaintenance({
+          config,
+          store,
+          now: now(),
+          logger,
+          onDamaged: () => monitorCore.raiseSystem('storage-damaged', now()),
+          onIntact: () => monitorCore.clearSystem('storage-damaged', now()),
+        }),
+      )
       .catch((err: unknown) => logger.error({ err }, `daily maintenance failed: ${(err as Error).message}`));
   };
   timers.push(setInterval(maintenance, MAINTENANCE_CHECK_MS));

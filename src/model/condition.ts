@@ -15,6 +15,7 @@ export const CONDITIONS = [
   'decoder-fault',
   'mail-failing',
   'storage-failing',
+  'storage-damaged',
   'broker-unreachable',
 ] as const;
 export type Condition = (typeof CONDITIONS)[number];
@@ -29,6 +30,7 @@ export const CONDITION_PRIORITY = {
   'decoder-fault': 'trouble',
   'mail-failing': 'system',
   'storage-failing': 'system',
+  'storage-damaged': 'system',
   'broker-unreachable': 'system',
 } as const satisfies Record<Condition, Priority>;
 
@@ -72,6 +74,10 @@ export const CONDITION_TEXT = {
   'storage-failing': {
     words: 'storage failing: the monitor cannot write its database',
     check: 'Check free disk space and the data folder permissions; run `pairwatch doctor`.',
+  },
+  'storage-damaged': {
+    words: "storage damaged: SQLite's own check found broken pages in the monitor's database",
+    check: 'Restore the newest daily backup: stop the service, `pairwatch restore <data folder>/backups/pairwatch-YYYYMMDD.db`, start it again (the log names the file).',
   },
   'broker-unreachable': {
     words: 'broker unreachable: the monitor cannot hand its states and alarm events to the MQTT broker',

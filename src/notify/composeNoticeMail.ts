@@ -27,6 +27,7 @@ export const CONDITION_SHORT = {
   'decoder-fault': 'decoder fault',
   'mail-failing': 'mail failing',
   'storage-failing': 'storage failing',
+  'storage-damaged': 'storage damaged',
   'broker-unreachable': 'broker unreachable',
 } as const satisfies Record<Condition, string>;
 
