@@ -81,23 +81,24 @@ export interface SessionStep {
 }
 
 export function stepDecoderSession(session: DecoderSession, line: string): SessionStep {
-  const counted: DecoderSession = { ...session, counters: { ...session.counters, lines: session.counters.lines + 1 } };
+  // Copy in, mutate privately, hand back (as stepLoop does): the caller's session is never changed,
+  // and a line costs one copy of the session and its counters rather than one per field that moves.
+  const next = privateCopy(session);
+  next.counters.lines += 1;
   const outcome = parseLine(line);
-  if (!outcome.ok) return dropped(counted, outcome.reason, outcome.detail);
-  return acceptFrame(counted, outcome.frame);
+  if (!outcome.ok) return { session: next, events: [drop(next, outcome.reason, outcome.detail)] };
+  return { session: next, events: acceptFrame(next, outcome.frame) };
 }
 
 /** Over-long lines the splitter discarded: each is one more `too-long` drop. */
 export function recordOverlong(session: DecoderSession, count: number): SessionStep {
-  let current = session;
+  const next = privateCopy(session);
   const events: DecoderEvent[] = [];
   for (let i = 0; i < count; i++) {
-    const counted = { ...current, counters: { ...current.counters, lines: current.counters.lines + 1 } };
-    const step = dropped(counted, 'too-long', `line longer than ${MAX_LINE_BYTES} bytes discarded`);
-    current = step.session;
-    events.push(...step.events);
+    next.counters.lines += 1;
+    events.push(drop(next, 'too-long', `line longer than ${MAX_LINE_BYTES} bytes discarded`));
   }
-  return { session: current, events };
+  return { session: next, events };
 }
 
 /** The counters the shell stores and shows (decoder_sessions.frames / bad_frames / lost_frames). */
@@ -105,59 +106,67 @@ export function sessionCounters(session: DecoderSession): DecoderCounters & { la
   return { ...session.counters, lastDecoderUs: session.lastDecoderUs, firmware: session.hello?.firmware ?? null, loops: session.hello?.loops ?? null };
 }
 
-function dropped(session: DecoderSession, reason: DropReason, detail: string): SessionStep {
-  const c = session.counters;
-  return {
-    session: { ...session, counters: { ...c, dropped: c.dropped + 1, droppedBy: { ...c.droppedBy, [reason]: c.droppedBy[reason] + 1 } } },
-    events: [{ kind: 'dropped', reason, detail }],
-  };
+type Writable<T> = { -readonly [K in keyof T]: T[K] };
+type PrivateSession = Writable<Omit<DecoderSession, 'counters'>> & { counters: Writable<DecoderCounters> };
+
+function privateCopy(session: DecoderSession): PrivateSession {
+  return { ...session, counters: { ...session.counters } };
 }
 
-function acceptFrame(session: DecoderSession, frame: Frame): SessionStep {
+function drop(session: PrivateSession, reason: DropReason, detail: string): DecoderEvent {
+  const c = session.counters;
+  c.dropped += 1;
+  // The per-reason table is shared with earlier sessions until a drop: copied only here, where it changes.
+  c.droppedBy = { ...c.droppedBy, [reason]: c.droppedBy[reason] + 1 };
+  return { kind: 'dropped', reason, detail };
+}
+
+function acceptFrame(session: PrivateSession, frame: Frame): DecoderEvent[] {
+  const counters = session.counters;
   if (frame.type === 'HELLO') {
     // A decoder restart: its seq starts again at 0 and its clock at 0; our time carries on from here.
-    return {
-      session: {
-        ...session,
-        hello: { loops: frame.loops, firmware: frame.firmware },
-        expectedSeq: 0,
-        lastRawTime: null,
-        baseUs: session.lastDecoderUs ?? 0,
-        counters: { ...session.counters, frames: session.counters.frames + 1, hellos: session.counters.hellos + 1 },
-      },
-      events: [{ kind: 'hello', version: 1, loops: frame.loops, firmware: frame.firmware }],
-    };
+    session.hello = { loops: frame.loops, firmware: frame.firmware };
+    session.expectedSeq = 0;
+    session.lastRawTime = null;
+    session.baseUs = session.lastDecoderUs ?? 0;
+    counters.frames += 1;
+    counters.hellos += 1;
+    return [{ kind: 'hello', version: 1, loops: frame.loops, firmware: frame.firmware }];
   }
 
   // Content that does not fit what HELLO announced makes the whole line bad, and a bad line is dropped
   // and counted, nothing else: checked before its seq or time can move the session's expectations.
   const misfit = misfitForHello(session, frame);
-  if (misfit !== null) return dropped(session, 'range', misfit);
+  if (misfit !== null) return [drop(session, 'range', misfit)];
 
   const seqBehind = session.expectedSeq === null ? 0 : (session.expectedSeq - frame.seq + SEQ_MODULO) % SEQ_MODULO;
   if (seqBehind === 1) {
     // The seq of the frame before: the same line delivered twice. Applying it again could only mislead.
-    return { session: { ...session, counters: { ...session.counters, duplicates: session.counters.duplicates + 1 } }, events: [] };
+    counters.duplicates += 1;
+    return [];
   }
 
   const events: DecoderEvent[] = [];
-  let next = advanceClock(session, frame.time);
-  if (next.counters.silentRestarts === session.counters.silentRestarts && next.expectedSeq !== null && seqBehind > 1 && seqBehind <= SEQ_MODULO / 2) {
+  let restarted = advanceClock(session, frame.time);
+  if (!restarted && session.expectedSeq !== null && seqBehind > 1 && seqBehind <= SEQ_MODULO / 2) {
     // The seq went back (further than a duplicate) while the clock did not: a restart all the same.
-    next = { ...next, expectedSeq: null, counters: { ...next.counters, silentRestarts: next.counters.silentRestarts + 1 } };
+    session.expectedSeq = null;
+    counters.silentRestarts += 1;
+    restarted = true;
   }
-  const decoderUs = next.lastDecoderUs!;
-  if (next.counters.silentRestarts > session.counters.silentRestarts) {
+  const decoderUs = session.lastDecoderUs!;
+  if (restarted) {
     // The decoder restarted and its HELLO never reached us: say so as the restart fault it is.
     events.push({ kind: 'fault', code: 'RESTART', decoderUs });
   }
 
-  if (next.expectedSeq !== null && frame.seq !== next.expectedSeq) {
-    const gap = (frame.seq - next.expectedSeq + SEQ_MODULO) % SEQ_MODULO;
-    next = { ...next, counters: { ...next.counters, lost: next.counters.lost + gap } };
+  if (session.expectedSeq !== null && frame.seq !== session.expectedSeq) {
+    const gap = (frame.seq - session.expectedSeq + SEQ_MODULO) % SEQ_MODULO;
+    counters.lost += gap;
     events.push({ kind: 'lost', count: gap, decoderUs });
   }
-  next = { ...next, expectedSeq: (frame.seq + 1) % SEQ_MODULO, counters: { ...next.counters, frames: next.counters.frames + 1 } };
+  session.expectedSeq = (frame.seq + 1) % SEQ_MODULO;
+  counters.frames += 1;
   switch (frame.type) {
     case 'EDGE':
       events.push({ kind: 'edge', input: frame.loop, band: frame.band, decoderUs });
@@ -169,7 +178,7 @@ function acceptFrame(session: DecoderSession, frame: Frame): SessionStep {
       events.push({ kind: 'fault', code: frame.code, decoderUs });
       break;
   }
-  return { session: next, events };
+  return events;
 }
 
 /**
@@ -195,32 +204,37 @@ export function rebaseDecoderClock(session: DecoderSession, decoderUs: number): 
   return { ...session, lastDecoderUs: decoderUs, baseUs: session.baseUs - (session.lastDecoderUs - decoderUs) };
 }
 
-/** Unwraps a raw 32-bit time against the session's anchor; the result is in `lastDecoderUs`. */
-function advanceClock(session: DecoderSession, raw: number): DecoderSession {
+/**
+ * Unwraps a raw 32-bit time against the session's anchor into `lastDecoderUs`. True when the clock
+ * went back further than a late frame: a restart whose HELLO was lost.
+ */
+function advanceClock(session: PrivateSession, raw: number): boolean {
   if (session.lastRawTime === null || session.lastDecoderUs === null) {
     const start = session.baseUs + raw;
     // Never behind what we already handed out (a HELLO re-bases on lastDecoderUs, so this holds).
-    const decoderUs = Math.max(start, session.lastDecoderUs ?? start);
-    return { ...session, lastRawTime: raw, lastDecoderUs: decoderUs };
+    session.lastDecoderUs = Math.max(start, session.lastDecoderUs ?? start);
+    session.lastRawTime = raw;
+    return false;
   }
   const forward = (raw - session.lastRawTime + TIME_MODULO) % TIME_MODULO;
   if (forward < HALF_WRAP) {
     // Frames come at least every 250 ms, so a forward step under half the wrap (35 min) is real time.
-    return { ...session, lastRawTime: raw, lastDecoderUs: session.lastDecoderUs + forward };
+    session.lastRawTime = raw;
+    session.lastDecoderUs += forward;
+    return false;
   }
   const back = TIME_MODULO - forward;
   if (back <= LATE_FRAME_SLACK_US) {
     // Stamped a little before the previous frame: keep time monotonic and the anchor where it was.
-    return { ...session, counters: { ...session.counters, lateFrames: session.counters.lateFrames + 1 } };
+    session.counters.lateFrames += 1;
+    return false;
   }
   // The clock started again without a HELLO: forget the seq expectation, and carry on from the last
   // time seen. Adding the new raw time as if it had elapsed would date the loops' next events up to
   // that far in the future and trip every one of them; how long the decoder was down is unknown.
-  return {
-    ...session,
-    expectedSeq: null,
-    baseUs: session.lastDecoderUs - raw,
-    lastRawTime: raw,
-    counters: { ...session.counters, silentRestarts: session.counters.silentRestarts + 1 },
-  };
+  session.expectedSeq = null;
+  session.baseUs = session.lastDecoderUs - raw;
+  session.lastRawTime = raw;
+  session.counters.silentRestarts += 1;
+  return true;
 }

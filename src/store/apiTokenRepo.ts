@@ -34,6 +34,11 @@ interface TokenStatements {
   findByName: Statement;
   revoke: Statement;
   list: Statement;
+  /** This connection's writes and other connections' commits, as one text: any change of it may be a revoke. */
+  changeStamp: Statement;
+  /** Live tokens found since the stamp last moved (only hits: a flood of bad tokens must not grow it). */
+  live: Map<string, ApiTokenSummary>;
+  liveAtStamp: string;
 }
 const cache = new WeakMap<BetterSqlite3.Database, TokenStatements>();
 
@@ -47,6 +52,11 @@ function statements(db: BetterSqlite3.Database): TokenStatements {
       findByName: db.prepare('SELECT id, name, role, created_at, revoked_at FROM api_tokens WHERE name = ?'),
       revoke: db.prepare('UPDATE api_tokens SET revoked_at = ? WHERE name = ? AND revoked_at IS NULL'),
       list: db.prepare('SELECT id, name, role, created_at, revoked_at FROM api_tokens ORDER BY name'),
+      // data_version moves when another connection commits (sqlite.org/pragma.html#pragma_data_version);
+      // total_changes() counts this connection's own writes (sqlite.org/lang_corefunc.html#total_changes).
+      changeStamp: db.prepare(`SELECT data_version || ':' || total_changes() FROM pragma_data_version`).pluck(),
+      live: new Map(),
+      liveAtStamp: '',
     };
     cache.set(db, s);
   }
@@ -63,10 +73,31 @@ export function insertApiToken(
   return { id: Number(result.lastInsertRowid), name: token.name, role: token.role, createdAt: token.createdAt, revokedAt: null };
 }
 
+/**
+ * The live token with this hash, or null. Runs on every API request, so a token found is remembered
+ * until anything at all is written to the database — by this process (the API or the monitor) or by
+ * another (`pairwatch token revoke` from the shell) — and a revoke works from the next request on.
+ */
 export function findLiveApiTokenByHash(db: BetterSqlite3.Database, tokenHash: string): ApiTokenSummary | null {
-  const row = statements(db).findLive.get(tokenHash) as TokenRow | undefined;
-  return row ? fromRow(row) : null;
+  const s = statements(db);
+  const stamp = s.changeStamp.get() as string;
+  if (stamp !== s.liveAtStamp) {
+    s.live.clear();
+    s.liveAtStamp = stamp;
+  }
+  const known = s.live.get(tokenHash);
+  if (known) return known;
+  const row = s.findLive.get(tokenHash) as TokenRow | undefined;
+  if (!row) return null;
+  // Frozen: every request that presents this token shares the one object.
+  const token = Object.freeze(fromRow(row));
+  if (s.live.size >= LIVE_TOKENS_REMEMBERED) s.live.clear();
+  s.live.set(tokenHash, token);
+  return token;
 }
+
+/** More live tokens than a site has in use at once; past it the memory starts afresh. */
+const LIVE_TOKENS_REMEMBERED = 256;
 
 export function findApiTokenByName(db: BetterSqlite3.Database, name: string): ApiTokenSummary | null {
   const row = statements(db).findByName.get(name) as TokenRow | undefined;

@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { ConfigError } from '../../src/config/configError.js';
 import { loadConfig, parseConfig } from '../../src/config/loadConfig.js';
+import { configProblems } from '../helpers/configProblems.js';
 
 const base = `
 site: { name: "Test farm" }
@@ -12,15 +13,7 @@ loops:
 storage: { path: data/t.db }
 `;
 
-function problems(text: string): string[] {
-  try {
-    parseConfig(text, 't.yaml');
-  } catch (err) {
-    if (err instanceof ConfigError) return err.lines();
-    throw err;
-  }
-  return [];
-}
+const problems = (text: string): string[] => configProblems(text);
 
 describe('config loading', () => {
   it('fills the documented defaults', () => {

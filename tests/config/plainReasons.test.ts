@@ -2,9 +2,9 @@ import { mkdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { checkSurroundings } from '../../src/config/checkSurroundings.js';
-import { ConfigError } from '../../src/config/configError.js';
 import { parseConfig } from '../../src/config/loadConfig.js';
 import { useTempDirs } from '../helpers/tempDir.js';
+import { configProblems } from '../helpers/configProblems.js';
 
 const tempDir = useTempDirs();
 
@@ -30,15 +30,7 @@ function withValue(path: string, value: unknown, base: unknown = BASE): string {
   return JSON.stringify(copy);
 }
 
-function problems(text: string): string[] {
-  try {
-    parseConfig(text, 't.yaml');
-  } catch (err) {
-    if (err instanceof ConfigError) return err.lines();
-    throw err;
-  }
-  return [];
-}
+const problems = (text: string): string[] => configProblems(text);
 
 /** zod's stock phrases: users must never read these. */
 const STOCK = /Invalid input|Too small|Too big|expected (number|string|boolean|array|object|int)|received|Invalid option|Invalid (string|email|url)/;

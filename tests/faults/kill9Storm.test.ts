@@ -148,8 +148,7 @@ function expectFaultsHaveAlarms(c: Committed, label: string): void {
 }
 
 describe('kill -9 of the real daemon during a fault storm (16 loops flapping), 20 rounds', () => {
-  // KNOWN FAILING after this round's merges (failed in the last full run, cause not yet found); skipped until fixed, see the closing note of 2026-12-02.
-  it.skip('keeps everything committed, delivers every queued mail, and never reminds about an acknowledged alarm', async () => {
+  it('keeps everything committed, delivers every queued mail, and never reminds about an acknowledged alarm', async () => {
     const random = seededRandom(SEED);
     const confirmedAcks = new Map<number, string>();
     const seenBeforeKills: Committed[] = [];

@@ -3,9 +3,9 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { userCommand } from '../../src/cli/userCommand.js';
-import { ConfigError } from '../../src/config/configError.js';
 import { parseConfig } from '../../src/config/loadConfig.js';
 import { captureCliIo } from '../helpers/captureCliIo.js';
+import { configProblems } from '../helpers/configProblems.js';
 
 const SITE = `site: { name: "Test Farm" }
 decoders: [{ id: main, port: /dev/null }]
@@ -13,15 +13,7 @@ loops: [{ id: well-pit, name: "Well pit", decoder: main, input: 1 }]
 storage: { path: /tmp/x.db }
 `;
 
-function problems(text: string): string[] {
-  try {
-    parseConfig(text, 'site.yaml');
-  } catch (err) {
-    if (err instanceof ConfigError) return err.lines();
-    throw err;
-  }
-  return [];
-}
+const problems = (text: string): string[] => configProblems(text, 'site.yaml');
 
 describe('the mqtt key of the site config', () => {
   it('is optional, and fills the defaults the README states', () => {

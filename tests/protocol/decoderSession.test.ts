@@ -236,3 +236,38 @@ describe('decoder session: time unwrap', () => {
     expect(sessionCounters(session).lost).toBe(0);
   });
 });
+
+describe('decoder session: pure at its boundary', () => {
+  // The step copies its input once and mutates the copy: the session handed in must come back unchanged,
+  // or a caller that keeps an old session (replay, the site state's history) would see it move.
+  const deepFreeze = <T>(value: T): T => {
+    if (value && typeof value === 'object') {
+      for (const inner of Object.values(value)) deepFreeze(inner);
+      Object.freeze(value);
+    }
+    return value;
+  };
+  it('never changes the session it is given, for any mix of good, bad, repeated and restarting lines', () => {
+    const body = fc.oneof(
+      fc.tuple(fc.integer({ min: 0, max: 65535 }), fc.integer({ min: 0, max: 2 ** 32 - 1 }), fc.integer({ min: 1, max: 8 }), fc.constantFrom('O', 'N', 'H'))
+        .map(([seq, time, loop, band]) => refLine(`EDGE ${seq} ${time} ${loop} ${band}`)),
+      fc.tuple(fc.integer({ min: 0, max: 65535 }), fc.integer({ min: 0, max: 2 ** 32 - 1 })).map(([seq, time]) => refLine(`TICK ${seq} ${time} NNNN`)),
+      fc.constant(refLine('HELLO 1 4 fw')),
+      fc.constantFrom(...MALFORMED.map((m) => m.line)),
+    );
+    fc.assert(
+      fc.property(fc.array(body, { maxLength: 40 }), (lines) => {
+        let session = deepFreeze(initialDecoderSession(4));
+        for (const line of lines) {
+          const before = structuredClone(session);
+          const step = stepDecoderSession(session, line);
+          expect(session).toEqual(before);
+          session = deepFreeze(step.session);
+        }
+        const before = structuredClone(session);
+        recordOverlong(session, 2);
+        expect(session).toEqual(before);
+      }),
+    );
+  });
+});

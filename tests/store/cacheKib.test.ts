@@ -1,9 +1,9 @@
 import { join } from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
-import { ConfigError } from '../../src/config/configError.js';
 import { parseConfig } from '../../src/config/loadConfig.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
 import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
+import { configProblems } from '../helpers/configProblems.js';
 
 /**
  * storage.cache_kib: the config key, its default and its errors, and what the connection ends up
@@ -17,15 +17,7 @@ loops: [{ id: byre, name: "Byre", decoder: main, input: 1 }]
 storage: ${storage}
 `;
 
-function problems(text: string): string[] {
-  try {
-    parseConfig(text, 't.yaml');
-  } catch (err) {
-    if (err instanceof ConfigError) return err.lines();
-    throw err;
-  }
-  return [];
-}
+const problems = (text: string): string[] => configProblems(text);
 
 describe('storage.cache_kib', () => {
   let tmp: TempDir | undefined;

@@ -1,4 +1,5 @@
 import { join } from 'node:path';
+import Database from 'better-sqlite3';
 import type BetterSqlite3 from 'better-sqlite3';
 import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
 import { findLiveApiTokenByHash, insertApiToken, listApiTokens, revokeApiToken } from '../../src/store/apiTokenRepo.js';
@@ -55,6 +56,49 @@ describe('apiTokenRepo', () => {
     expect(revokeApiToken(db, 'station', T + 6)).toBe(false);
     expect(findLiveApiTokenByHash(db, 'h1')).toBeNull();
     expect(listApiTokens(db)).toMatchObject([{ name: 'station', revokedAt: T + 5 }]);
+  });
+
+  // The live-token lookup is remembered between requests; these are the ways a revoke must still work
+  // at once. The second connection stands for `pairwatch token revoke` run from a shell.
+  it('a revoke from another process is seen by the very next lookup', () => {
+    insertApiToken(db, { name: 'station', tokenHash: 'h1', role: 'operator', createdAt: T });
+    expect(findLiveApiTokenByHash(db, 'h1')?.role).toBe('operator');
+    expect(findLiveApiTokenByHash(db, 'h1')?.role).toBe('operator');
+    const shell = new Database(join(tmp.dir, 'site.db'));
+    try {
+      expect(revokeApiToken(shell, 'station', T + 5)).toBe(true);
+    } finally {
+      shell.close();
+    }
+    expect(findLiveApiTokenByHash(db, 'h1')).toBeNull();
+  });
+
+  it('a change made by hand on another connection (not through the repo) is seen too', () => {
+    insertApiToken(db, { name: 'station', tokenHash: 'h1', role: 'operator', createdAt: T });
+    expect(findLiveApiTokenByHash(db, 'h1')?.role).toBe('operator');
+    const shell = new Database(join(tmp.dir, 'site.db'));
+    try {
+      shell.prepare(`UPDATE api_tokens SET role = 'viewer' WHERE name = 'station'`).run();
+    } finally {
+      shell.close();
+    }
+    expect(findLiveApiTokenByHash(db, 'h1')?.role).toBe('viewer');
+  });
+
+  it('a write on the same connection outside the repo is seen too', () => {
+    insertApiToken(db, { name: 'station', tokenHash: 'h1', role: 'operator', createdAt: T });
+    expect(findLiveApiTokenByHash(db, 'h1')).not.toBeNull();
+    db.prepare('UPDATE api_tokens SET revoked_at = ? WHERE name = ?').run(new Date(T + 5).toISOString(), 'station');
+    expect(findLiveApiTokenByHash(db, 'h1')).toBeNull();
+  });
+
+  it('hands out a token nobody can change for the others who present it', () => {
+    insertApiToken(db, { name: 'station', tokenHash: 'h1', role: 'viewer', createdAt: T });
+    const found = findLiveApiTokenByHash(db, 'h1')!;
+    expect(() => {
+      (found as { role: string }).role = 'admin';
+    }).toThrow(TypeError);
+    expect(findLiveApiTokenByHash(db, 'h1')?.role).toBe('viewer');
   });
 });
 
