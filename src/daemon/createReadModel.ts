@@ -2,7 +2,7 @@ import type { AlarmRecord } from '../alarms/alarmTypes.js';
 import { intervalFigures, type LineQuality } from '../classify/index.js';
 import type { SiteConfig } from '../config/schema.js';
 import { LISTED_ALARM_STATES } from '../model/alarmState.js';
-import { PRIORITY_RANK } from '../model/condition.js';
+import { CONDITION_TEXT, PRIORITY_RANK } from '../model/condition.js';
 import type { LoopState } from '../model/loopState.js';
 import type { DurableWriter } from '../store/createDurableWriter.js';
 import type { Store } from '../store/openStore.js';
@@ -228,10 +228,13 @@ export function createReadModel(options: ReadModelOptions): WebReadModel {
         return !runtime || runtime.offline || core.linkOf(d.id)?.state !== 'connected';
       });
       const failing = options.writer.status().failing;
+      // Storage trouble the writer cannot see: a damaged file (integrity checks), a file that vanished or was replaced.
+      const trouble = core.openAlarms().find((a) => a.source === 'system' && a.active && (a.condition === 'storage-damaged' || a.condition === 'storage-failing'));
+      const storageTrouble = trouble ? CONDITION_TEXT[trouble.condition].words : null;
       const mailFailing = options.mailFailing();
       const checks: HealthView['checks'] = [
         { name: 'ingest', ok: offline.length === 0, reason: offline.length ? `decoder ${offline.map((d) => d.id).join(', ')} not connected or silent` : null },
-        { name: 'store', ok: failing === null, reason: failing ? `storage failing: ${failing.kind} (${failing.sqliteCode})` : null },
+        { name: 'store', ok: failing === null && storageTrouble === null, reason: failing ? `storage failing: ${failing.kind} (${failing.sqliteCode})` : storageTrouble },
         { name: 'mail', ok: !mailFailing, reason: mailFailing ? 'mail failing: messages are waiting in the outbox' : null },
       ];
       return { ok: checks.every((c) => c.ok), checks };

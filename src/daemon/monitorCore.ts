@@ -57,6 +57,7 @@ const EDGE_BATCH_ROWS = 2000;
 /** Raw edges are high-rate and droppable: one transaction a second (or per 2000 rows) is plenty. */
 const EDGE_FLUSH_MS = 1000;
 const DECODER_FAULT_QUIET_MS = 10 * 60_000;
+const ABANDONED_SESSION_REASON = 'the monitor did not stop cleanly (killed or power lost); closed at the last frame heard';
 /** Bad+lost frames over a minute above which the decoder link counts as noisy (common practice: a few per cent). */
 const NOISY_RATIO_ON = 0.1;
 const NOISY_RATIO_OFF = 0.02;
@@ -111,8 +112,11 @@ export function createMonitorCore(options: MonitorCoreOptions) {
    */
   let version = 0;
 
-  // Every start records the loops as unknown: the classifier decides afresh within seconds.
+  // Every start records the loops as unknown: the classifier decides afresh within seconds. Sessions a
+  // killed process left open are closed at the last frame they heard, so uptime is not counted twice.
   writer.commit('start', (s) => {
+    const abandoned = s.decoderSessions.closeAbandoned(ABANDONED_SESSION_REASON);
+    if (abandoned > 0) logger.warn({ sessions: abandoned }, `closed ${abandoned} decoder session(s) left open by a monitor that did not stop cleanly`);
     s.loopStatus.ensureLoops(config.loops.map((l) => l.id), options.now);
     for (const loop of config.loops) {
       const previous = s.loopStatus.get(loop.id);
@@ -192,7 +196,20 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     if (edgeBuffer.length === 0) return;
     const rows = edgeBuffer;
     edgeBuffer = [];
-    writer.commit('edges', (s) => s.edges.insertMany(rows), { droppable: true });
+    const lastEdgeAt = new Map<string, number>();
+    for (const row of rows) lastEdgeAt.set(row.decoderId, Math.max(row.at, lastEdgeAt.get(row.decoderId) ?? -Infinity));
+    writer.commit(
+      'edges',
+      (s) => {
+        s.edges.insertMany(rows);
+        // The last-heard mark a start after a crash closes the session at (to within a flush).
+        for (const [decoderId, at] of lastEdgeAt) {
+          const id = sessionIds.get(decoderId);
+          if (id !== undefined) s.decoderSessions.heard(id, at);
+        }
+      },
+      { droppable: true },
+    );
   }
 
   /** Feeds one input (a decoder line, a link change, or the clock) through the site step and commits what follows. */
@@ -364,7 +381,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     }
     const counters = config.decoders.map((d) => {
       const decoder = site.decoders[d.id]!;
-      return { decoderId: d.id, counts: sessionCounters(decoder.session) };
+      return { decoderId: d.id, counts: sessionCounters(decoder.session), lastValidAtMs: decoder.lastValidAtMs };
     });
     flushEdges();
     writer.commit(
@@ -372,9 +389,11 @@ export function createMonitorCore(options: MonitorCoreOptions) {
       (s) => {
         for (const { loopId, quality } of taken.qualities) s.lineQuality.upsertMinute(loopId, bucketMs, quality);
         for (const [loopId, at] of lastPulses) s.loopStatus.setLastPulse(loopId, at);
-        for (const { decoderId, counts } of counters) {
+        for (const { decoderId, counts, lastValidAtMs } of counters) {
           const id = sessionIds.get(decoderId);
-          if (id !== undefined) s.decoderSessions.counters(id, { frames: counts.frames, badFrames: counts.dropped, lostFrames: counts.lost }, now);
+          if (id === undefined) continue;
+          s.decoderSessions.counters(id, { frames: counts.frames, badFrames: counts.dropped, lostFrames: counts.lost }, now);
+          if (lastValidAtMs !== null) s.decoderSessions.heard(id, lastValidAtMs);
         }
       },
       { droppable: true },
@@ -414,6 +433,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
       writer.commit('session close', (s) => {
         const id = sessionIds.get(decoderId);
         if (id === undefined) return;
+        sessionIds.delete(decoderId);
         s.decoderSessions.counters(id, { frames: counts.frames, badFrames: counts.dropped, lostFrames: counts.lost }, now);
         s.decoderSessions.close(id, now, reason);
       });
@@ -422,8 +442,23 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     options.onChange?.('loops');
   }
 
+  /** On a stop: every open session ends now, with its final counters (the links are closed without status reports then). */
+  function closeSessions(now: number, reason: string): void {
+    // Read inside the commit: a session opened while the disk failed gets its id only when that queued write lands.
+    const counts = new Map(config.decoders.map((d) => [d.id, sessionCounters(site.decoders[d.id]!.session)]));
+    writer.commit('sessions closed at stop', (s) => {
+      for (const [decoderId, id] of sessionIds) {
+        const c = counts.get(decoderId);
+        if (c) s.decoderSessions.counters(id, { frames: c.frames, badFrames: c.dropped, lostFrames: c.lost }, now);
+        s.decoderSessions.close(id, now, reason);
+      }
+      sessionIds.clear();
+    });
+  }
+
   return {
     handle,
+    closeSessions,
     line(decoderId: string, line: string, now: number) {
       handle({ kind: 'line', decoderId, line }, now);
     },

@@ -1,3 +1,4 @@
+import { statSync } from 'node:fs';
 import { dirname, resolve } from 'node:path';
 import type { Logger } from 'pino';
 import type { SiteConfig } from '../config/schema.js';
@@ -16,7 +17,10 @@ import { createMetrics } from '../ops/metrics.js';
 import { createStallGuard } from '../ops/stallGuard.js';
 import { createDurableWriter } from '../store/createDurableWriter.js';
 import { openStore, type Store } from '../store/openStore.js';
+import { integrityProblems, restoreAdvice } from '../store/checkPairwatchDatabase.js';
 import { makePrivateDir } from '../store/privateFiles.js';
+import { fileGoneFailure, type StorageFailure } from '../store/storageFailure.js';
+import { lockFileFor } from '../store/storeLock.js';
 import { enqueueOutbox, recordMailAudit } from '../store/outboxRepo.js';
 import { insertPendingNotice } from '../store/pendingNoticeRepo.js';
 import { buildWebServer } from '../web/buildWebServer.js';
@@ -99,9 +103,11 @@ export async function startMonitor(options: StartMonitorOptions) {
 
   // The core is created after the writer, which must report to it: bind late.
   let core: ReturnType<typeof createMonitorCore> | null = null;
+  const watchFile = fileIdentityGuard([dbPath, lockFileFor(dbPath)]);
   const writer = createDurableWriter({
     store,
     now,
+    guard: watchFile,
     onFailing(failure) {
       logger.error({ failure }, `storage failing: ${failure.message} — classifying in memory, retrying`);
       core?.raiseSystem('storage-failing', now());
@@ -149,6 +155,15 @@ export async function startMonitor(options: StartMonitorOptions) {
     ...(config.mqtt && { onAlarmEffects: (s, effects, t) => void enqueueAlarmEvents(s.db, alarmEventsOf(effects), t) }),
   });
   const monitorCore = core;
+  // quick_check at every start (issue 16 item 10): damage in the middle of the file is otherwise only
+  // found when a query happens to read that page. The full integrity_check runs in the daily maintenance.
+  const damage = integrityProblems(store.db, 'quick');
+  if (damage.length > 0) reportDamage('quick_check', damage);
+  else monitorCore.clearSystem('storage-damaged', startedAt);
+  function reportDamage(check: string, problems: readonly string[]): void {
+    logger.error({ problems }, `the database ${dbPath} is damaged (${check}: ${problems.slice(0, 3).join('; ')}); ${restoreAdvice(dbPath)}`);
+    monitorCore.raiseSystem('storage-damaged', now());
+  }
 
   let mailFailures = 0;
   const worker = createOutboxWorker({
@@ -284,6 +299,7 @@ export async function startMonitor(options: StartMonitorOptions) {
 
   const fast = setInterval(() => {
     const t = now();
+    writer.check();
     monitorCore.tick(t);
     if (writer.pending() > 0) writer.flush();
     armSilence();
@@ -402,7 +418,16 @@ export async function startMonitor(options: StartMonitorOptions) {
   const maintenance = () => {
     if (stopping) return;
     stallGuard
-      .run('maintenance', () => runMaintenance({ config, store, now: now(), logger }))
+      .run('maintenance', () =>
+        runMaintenance({
+          config,
+          store,
+          now: now(),
+          logger,
+          onDamaged: () => monitorCore.raiseSystem('storage-damaged', now()),
+          onIntact: () => monitorCore.clearSystem('storage-damaged', now()),
+        }),
+      )
       .catch((err: unknown) => logger.error({ err }, `daily maintenance failed: ${(err as Error).message}`));
   };
   timers.push(setInterval(maintenance, MAINTENANCE_CHECK_MS));
@@ -474,6 +499,7 @@ export async function startMonitor(options: StartMonitorOptions) {
     await inbox?.stop();
     await Promise.allSettled(links.map((link) => link.close()));
     monitorCore.flushEdges();
+    monitorCore.closeSessions(now(), `monitor ${reason}`);
     lifecycleMail('stopped', reason);
     writer.flush();
     // Try to get pending mail out, but never past the deadline: the outbox keeps what is left.
@@ -486,7 +512,8 @@ export async function startMonitor(options: StartMonitorOptions) {
     writer.flush();
     if (writer.pending() > 0 || directNotices.pending() > 0) {
       // The disk still refuses: say what is lost with this process, and keep the alarms somewhere that survives it.
-      const file = writeUnsavedAlarms([dataDir], { at: now(), queued: writer.queuedLabels(), alarms: monitorCore.openAlarms(), unmailed: directNotices.unsent() });
+      // The data folder itself may be what went missing: then the folder that held it.
+      const file = writeUnsavedAlarms([dataDir, dirname(dataDir)], { at: now(), queued: writer.queuedLabels(), alarms: monitorCore.openAlarms(), unmailed: directNotices.unsent() });
       logger.error(
         { queued: writer.queuedLabels(), unmailed: directNotices.unsent(), alarms: monitorCore.openAlarms().map((a) => ({ id: a.id, source: a.source, loopId: a.loopId, condition: a.condition, state: a.state, raisedAt: new Date(a.raisedAt).toISOString() })), file },
         `stopping with ${countOf(writer.pending(), 'write')} the disk never took and ${countOf(directNotices.pending(), 'notice')} not mailed; ${file ? `open alarms saved to ${file}` : 'no folder would take the open alarms either: they are only in this log'}`,
@@ -500,6 +527,32 @@ export async function startMonitor(options: StartMonitorOptions) {
 }
 
 export type Monitor = Awaited<ReturnType<typeof startMonitor>>;
+
+/**
+ * Watches the database and its lock file by identity (device and inode): deleted, or replaced by
+ * another file, means the open connection writes into a file nobody will open again (issue 16 item 6).
+ * The identities are taken once, when the store was opened.
+ */
+function fileIdentityGuard(paths: readonly string[]): () => StorageFailure | null {
+  const identityOf = (path: string) => {
+    try {
+      const info = statSync(path);
+      return `${info.dev}:${info.ino}`;
+    } catch {
+      return null;
+    }
+  };
+  const expected = paths.map((path) => ({ path, identity: identityOf(path) }));
+  return () => {
+    for (const { path, identity } of expected) {
+      if (identity === null) continue;
+      const now = identityOf(path);
+      if (now === identity) continue;
+      return fileGoneFailure(now === null ? `${path} was deleted (or its folder) while the monitor ran` : `${path} was replaced by another file while the monitor ran`, 'file watch');
+    }
+    return null;
+  };
+}
 
 export function splitListen(listen: string): [string, string] {
   const at = listen.lastIndexOf(':');

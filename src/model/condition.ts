@@ -16,6 +16,7 @@ export const CONDITIONS = [
   'mail-failing',
   'storage-failing',
   'inbox-failing',
+  'storage-damaged',
   'broker-unreachable',
   'site-not-reporting',
 ] as const;
@@ -32,6 +33,7 @@ export const CONDITION_PRIORITY = {
   'mail-failing': 'system',
   'storage-failing': 'system',
   'inbox-failing': 'system',
+  'storage-damaged': 'system',
   'broker-unreachable': 'system',
   /** Raised by the estate board only, about a site it watches. */
   'site-not-reporting': 'trouble',
@@ -54,6 +56,7 @@ export const CONDITION_NAME = {
   'decoder-fault': 'decoder fault',
   'mail-failing': 'mail failing',
   'storage-failing': 'storage failing',
+  'storage-damaged': 'storage damaged',
   'inbox-failing': 'reply inbox failing',
   'broker-unreachable': 'broker unreachable',
   'site-not-reporting': 'site not reporting',
@@ -101,6 +104,10 @@ export const CONDITION_TEXT = {
   'inbox-failing': {
     words: 'reply inbox failing: the monitor cannot read the mailbox that replies to alarm mail go to, so a reply cannot acknowledge',
     check: 'Check mail.imap (host, user, the app password in pass_env) and run `pairwatch doctor`; acknowledge on the board meanwhile.',
+  },
+  'storage-damaged': {
+    words: "storage damaged: SQLite's own check found broken pages in the monitor's database",
+    check: 'Restore the newest daily backup: stop the service, `pairwatch restore <data folder>/backups/pairwatch-YYYYMMDD.db`, start it again (the log names the file).',
   },
   'broker-unreachable': {
     words: 'broker unreachable: the monitor cannot hand its states and alarm events to the MQTT broker',

@@ -45,7 +45,7 @@ export interface ReportDecoder {
   status: 'connecting' | 'connected' | 'disconnected' | 'offline';
   /** How long the decoder was connected and talking during the report period. */
   connectedMsInPeriod: number;
-  /** HELLOs after the first in the period: decoder restarts. */
+  /** Sessions after the first in the period: the port reconnected or the monitor restarted. */
   restarts: number;
   frames: number;
   badFrames: number;

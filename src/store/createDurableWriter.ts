@@ -50,6 +50,11 @@ export interface DurableWriterOptions {
   /** Queued items written per transaction when catching up. */
   batchSize?: number;
   now?: () => number;
+  /**
+   * Asked before every transaction: a failure here (the database file deleted or replaced under us)
+   * means the work is held as if the disk refused it, never written to a file nobody can open again.
+   */
+  guard?: () => StorageFailure | null;
 }
 
 export interface DurableWriter {
@@ -60,8 +65,20 @@ export interface DurableWriter {
   /** How many queued items carry each label: what a stop with the disk still failing must report. */
   queuedLabels(): Record<string, number>;
   status(): DurableWriterStatus;
+  /** Runs the guard now (the shell calls it on a timer, so a quiet monitor notices too). */
+  check(): StorageFailure | null;
   readonly retryMs: number;
 }
+
+/** Thrown inside the writer when the guard refuses: carries the failure to the catch that queues. */
+class GuardRefusal extends Error {
+  constructor(readonly failure: StorageFailure) {
+    super(failure.message);
+  }
+}
+
+const failureOf = (error: unknown, label: string): StorageFailure | null =>
+  error instanceof GuardRefusal ? { ...error.failure, label } : storageFailureOf(error, label);
 
 interface QueuedWork {
   label: string;
@@ -128,6 +145,8 @@ export function createDurableWriter(options: DurableWriterOptions): DurableWrite
    * cut may lose the last of them, never corrupt the file), then FULL is put back for everyone else.
    */
   const inTransaction = (droppableOnly: boolean, run: () => void): void => {
+    const refused = options.guard?.();
+    if (refused) throw new GuardRefusal(refused);
     if (!droppableOnly) {
       store.transaction(run);
       return;
@@ -149,7 +168,7 @@ export function createDurableWriter(options: DurableWriterOptions): DurableWrite
       writtenSinceFailure += 1;
       return true;
     } catch (error) {
-      const failure = storageFailureOf(error, item.label);
+      const failure = failureOf(error, item.label);
       if (failure) {
         enterFailing(failure);
         return false;
@@ -175,7 +194,7 @@ export function createDurableWriter(options: DurableWriterOptions): DurableWrite
         writtenSinceFailure += batch.length;
         continue;
       } catch (error) {
-        const failure = storageFailureOf(error, batch[0]?.label ?? 'queued work');
+        const failure = failureOf(error, batch[0]?.label ?? 'queued work');
         if (failure) {
           enterFailing(failure);
           return 'failing';
@@ -219,7 +238,7 @@ export function createDurableWriter(options: DurableWriterOptions): DurableWrite
         inTransaction(item.droppable, () => work(store));
         return 'written';
       } catch (error) {
-        const failure = storageFailureOf(error, label);
+        const failure = failureOf(error, label);
         if (!failure) {
           reject(label, error);
           return 'rejected';
@@ -249,6 +268,14 @@ export function createDurableWriter(options: DurableWriterOptions): DurableWrite
     },
     status() {
       return { failing, failingSinceMs, pending: queue.length, droppedBatches };
+    },
+    check() {
+      const refused = options.guard?.() ?? null;
+      if (refused) {
+        enterFailing(refused);
+        lastAttemptMs = now();
+      }
+      return refused;
     },
   };
 }

@@ -1,4 +1,4 @@
-import { readdirSync, rmSync } from 'node:fs';
+import { existsSync, readdirSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Store } from './openStore.js';
 import { backupTo, type BackupResult } from './backupTo.js';
@@ -43,4 +43,11 @@ export async function dailyBackup(
     removed.push(name);
   }
   return { backup, removed };
+}
+
+/** The newest `pairwatch-YYYYMMDD.db` in `dir`, as a full path, or null when there is none. */
+export function newestDailyBackup(dir: string): string | null {
+  if (!existsSync(dir)) return null;
+  const newest = readdirSync(dir).filter((name) => DAILY_BACKUP_PATTERN.test(name)).sort().pop();
+  return newest === undefined ? null : join(dir, newest);
 }

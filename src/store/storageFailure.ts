@@ -1,5 +1,5 @@
 /** Why the database cannot be written right now, in words a farm-office user can act on. */
-export const STORAGE_FAILURE_KINDS = ['disk-full', 'read-only', 'io-error', 'corrupt', 'cannot-open', 'busy'] as const;
+export const STORAGE_FAILURE_KINDS = ['disk-full', 'read-only', 'io-error', 'corrupt', 'cannot-open', 'busy', 'file-gone'] as const;
 export type StorageFailureKind = (typeof STORAGE_FAILURE_KINDS)[number];
 
 export interface StorageFailure {
@@ -29,7 +29,15 @@ const ADVICE: Record<StorageFailureKind, string> = {
   corrupt: 'the database file is damaged: stop pairwatch and restore the latest backup (`pairwatch restore FILE`)',
   'cannot-open': 'the database file cannot be opened: check the data folder exists and is writable',
   busy: 'another program keeps the database locked: stop it (a backup or a manual sqlite3 session)',
+  'file-gone':
+    'the database file was deleted or replaced under the running monitor: nothing more is written to it (state changes and alarms are held in memory, alarm mail goes out directly); ' +
+    'stop the monitor (sudo systemctl stop pairwatch), which saves what it holds into an unsaved-alarms file, put the database back (pairwatch restore FILE from the backups), then start it again',
 };
+
+/** A storage failure found by watching the file rather than by SQLite: `what` says what was seen. */
+export function fileGoneFailure(what: string, label: string): StorageFailure {
+  return { kind: 'file-gone', sqliteCode: 'PW_DB_FILE_GONE', label, message: `${what}: ${ADVICE['file-gone']}` };
+}
 
 /** Classifies a thrown value; null when it is not a storage fault (a bug, a constraint) and retrying cannot help. */
 export function storageFailureOf(error: unknown, label: string): StorageFailure | null {

@@ -2,6 +2,7 @@ import type { SiteConfig } from '../../config/schema.js';
 import { checkClockSync, type ClockSyncDeps } from './checkClockSync.js';
 import { checkConfig } from './checkConfig.js';
 import { checkDecoder, type DecoderCheckDeps } from './checkDecoder.js';
+import { checkDatabase } from './checkDatabase.js';
 import { checkDiskSpace, type DiskDeps } from './checkDiskSpace.js';
 import type { CheckResult } from './checkResult.js';
 import { checkImap } from './checkImap.js';
@@ -15,6 +16,8 @@ export interface DoctorDeps {
   web: WebPortDeps;
   disk: DiskDeps;
   clock: ClockSyncDeps;
+  /** The database file's integrity (default: PRAGMA integrity_check on the real file). */
+  database?: (storagePath: string) => Promise<CheckResult>;
 }
 
 /**
@@ -43,6 +46,7 @@ export async function runDoctor(
     if (config.mail.imap) report(await checkImap(config.mail, env));
     report(await checkWebPort(config.web, deps.web));
     report(await checkDiskSpace(config.storage.path, deps.disk));
+    report(await (deps.database ?? checkDatabase)(config.storage.path));
   }
   report(await checkClockSync(deps.clock));
   return results;
