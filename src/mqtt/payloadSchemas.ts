@@ -84,7 +84,7 @@ export const PAYLOAD_SCHEMAS = {
       periodMs: { type: 'number', exclusiveMinimum: 0 },
       alarm: {
         anyOf: [
-          object({ id: { type: 'integer', minimum: 1 }, condition: { enum: [...CONDITIONS] }, priority: { enum: [...PRIORITIES] }, state: { enum: [...ALARM_STATES] } }),
+          object({ id: { type: 'integer', minimum: 1 }, condition: { enum: [...CONDITIONS] }, priority: { enum: [...PRIORITIES] }, state: { enum: [...ALARM_STATES] }, active: { type: 'boolean' } }),
           { type: 'null' },
         ],
       },

@@ -29,7 +29,8 @@ export interface SummaryPayload {
 export interface LoopPayload {
   id: string; name: string; location: string | null; state: LoopState; since: string; lastPulseAt: string | null;
   inService: boolean; intermittent: boolean; periodMs: number;
-  alarm: { id: number; condition: Condition; priority: Priority; state: AlarmState } | null;
+  /** `active` false with an unacknowledged state: back to normal, still needs acknowledging. */
+  alarm: { id: number; condition: Condition; priority: Priority; state: AlarmState; active: boolean } | null;
   lineQuality: { since: string; pulses: number; intervalMeanMs: number | null; intervalJitterMs: number | null; outOfTolerance: number; glitches: number; longPulses: number; lostFrames: number };
 }
 export interface DecoderPayload {

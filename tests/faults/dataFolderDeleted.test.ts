@@ -68,7 +68,7 @@ describe('the data folder deleted while running (issue 16 item 6)', () => {
     // The storm goes on: state changes after the deletion are logged, and held in memory rather than written to the lost file.
     await daemon.waitForLog((e) => daemon.logs.indexOf(e) > deletedAt && /^loop bldg-\d+: /.test(e.msg), 20_000, 'a state change after the deletion');
     await daemon.terminate();
-    const stopLine = daemon.logs.find((e) => /^stopping with \d+ write\(s\) the disk never took/.test(e.msg));
+    const stopLine = daemon.logs.find((e) => /^stopping with \d+ writes? the disk never took/.test(e.msg));
     expect(stopLine, 'the stop says what was never stored').toBeDefined();
     expect(Object.keys((stopLine as unknown as { queued: Record<string, number> }).queued)).toContain('state');
   }, 90_000);
