@@ -12,7 +12,7 @@ import { createMessageIdFactory, messageIdDomain } from '../notify/messageId.js'
 import { createDropFolderTransport, createSmtpTransport, type MailTransport } from '../notify/mailTransport.js';
 import { publicUrlFor } from '../notify/noticeSettings.js';
 import { NotifyError } from '../notify/notifyError.js';
-import type { OutboxMessage } from '../notify/outboxMessage.js';
+import type { OutboxMessage } from '../model/outboxMessage.js';
 import { escapeHtml } from '../notify/escapeHtml.js';
 import { dirname, resolve } from 'node:path';
 import { parseDuration } from '../config/duration.js';

@@ -3,7 +3,7 @@ import { CONDITION_TEXT } from '../model/condition.js';
 import { PRIORITY_TAG } from '../notify/mailLayout.js';
 import { escapeHtml } from '../notify/escapeHtml.js';
 import { formatSiteAndUtc } from '../notify/formatSiteTime.js';
-import type { OutboxMessage } from '../notify/outboxMessage.js';
+import type { OutboxMessage } from '../model/outboxMessage.js';
 import type { StorageFailure } from '../store/storageFailure.js';
 
 /**

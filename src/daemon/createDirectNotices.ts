@@ -2,7 +2,7 @@ import type { AlarmRecord } from '../alarms/alarmTypes.js';
 import { composeNoticeMail } from '../notify/composeNoticeMail.js';
 import type { MailTransport } from '../notify/mailTransport.js';
 import { planDigests, type NotifyEffect } from '../notify/noticeQueue.js';
-import type { NoticeAlarm, PendingNotice } from '../notify/noticeTypes.js';
+import type { NoticeAlarm, PendingNotice } from '../alarms/noticeTypes.js';
 import type { NoticeSettings } from '../notify/noticeSettings.js';
 import { retryDelayMs } from '../notify/retryDelay.js';
 

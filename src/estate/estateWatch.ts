@@ -5,10 +5,10 @@ import type { Priority } from '../model/condition.js';
 import { CONDITION_PRIORITY } from '../model/condition.js';
 import type { AlarmPayload } from '../mqtt/sitePayloads.js';
 import { composeNoticeMail } from '../notify/composeNoticeMail.js';
-import type { NoticeAlarm, PendingNotice } from '../notify/noticeTypes.js';
+import type { NoticeAlarm, PendingNotice } from '../alarms/noticeTypes.js';
 import { planDigests } from '../notify/noticeQueue.js';
 import type { DecoderRef, LoopRef, NoticeSettings } from '../notify/noticeSettings.js';
-import type { OutboxMessage } from '../notify/outboxMessage.js';
+import type { OutboxMessage } from '../model/outboxMessage.js';
 
 /**
  * The estate's own alarms: every site alarm the estate sees unacknowledged, and every site that is

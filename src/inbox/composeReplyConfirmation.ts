@@ -1,6 +1,6 @@
 import { mailPageHtml } from '../notify/mailLayout.js';
 import { escapeHtml } from '../notify/escapeHtml.js';
-import type { OutboxMessage } from '../notify/outboxMessage.js';
+import type { OutboxMessage } from '../model/outboxMessage.js';
 
 /** What the monitor answers a verified reply with: one line per alarm the reply was about. */
 export interface ReplyConfirmation {

@@ -7,7 +7,7 @@ import { CONDITION_SHORT } from './composeNoticeMail.js';
 import { escapeHtml } from './escapeHtml.js';
 import { formatElapsed, formatSiteAndUtc, formatSiteTime } from './formatSiteTime.js';
 import { mailFooterHtml, mailFooterText, mailPageHtml, PRIORITY_HEADING } from './mailLayout.js';
-import type { MailEnvelope, OutboxMessage } from './outboxMessage.js';
+import type { MailEnvelope, OutboxMessage } from '../model/outboxMessage.js';
 
 export const REPORT_PERIOD_MS = 86_400_000;
 

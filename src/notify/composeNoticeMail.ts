@@ -7,9 +7,9 @@ import { signReplyToken } from './replyToken.js';
 import { escapeHtml } from './escapeHtml.js';
 import { formatElapsed, formatSiteAndUtc } from './formatSiteTime.js';
 import { mailFooterHtml, mailFooterText, mailPageHtml, PRIORITY_HEADING, PRIORITY_TAG } from './mailLayout.js';
-import type { Digest, NoticeAlarm, PendingNotice } from './noticeTypes.js';
+import type { Digest, NoticeAlarm, PendingNotice } from '../alarms/noticeTypes.js';
 import { mailbox, type NoticeSettings } from './noticeSettings.js';
-import type { OutboxMessage } from './outboxMessage.js';
+import type { OutboxMessage } from '../model/outboxMessage.js';
 
 export interface NoticeComposeContext extends NoticeSettings {
   now: number;

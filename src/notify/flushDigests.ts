@@ -3,7 +3,7 @@ import { enqueueOutbox, recordMailAudit } from '../store/outboxRepo.js';
 import { deletePendingNotices, listPendingNotices, loadNoticeAlarms, setAlarmThreadIds } from '../store/pendingNoticeRepo.js';
 import { recipientsOf } from '../store/recipientRepo.js';
 import { composeNoticeMail } from './composeNoticeMail.js';
-import type { NoticeAlarm } from './noticeTypes.js';
+import type { NoticeAlarm } from '../alarms/noticeTypes.js';
 import { planDigests } from './noticeQueue.js';
 import type { NoticeSettings } from './noticeSettings.js';
 

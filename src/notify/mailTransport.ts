@@ -8,7 +8,7 @@ import type { SendMailOptions } from 'nodemailer';
 import type { MailConfig } from '../config/schema.js';
 import { NotifyError } from './notifyError.js';
 import { toMailSendError } from './mailSendError.js';
-import type { OutboxMessage } from './outboxMessage.js';
+import type { OutboxMessage } from '../model/outboxMessage.js';
 
 export interface MailSendResult {
   accepted: string[];

@@ -1,5 +1,5 @@
 import type { SqliteDatabase } from './openDatabase.js';
-import type { LineQuality } from '../classify/loopTypes.js';
+import type { LineQuality } from '../classify/index.js';
 import { MINUTE_MS, floorTo } from './hourBucket.js';
 import { fromIso, toIso } from './isoTime.js';
 

@@ -1,7 +1,7 @@
 import type { Database, Statement } from 'better-sqlite3';
 import type { Priority } from '../model/condition.js';
 import type { AuditAction } from '../alarms/alarmTypes.js';
-import type { OutboxKind, OutboxMessage } from '../notify/outboxMessage.js';
+import type { OutboxKind, OutboxMessage } from '../model/outboxMessage.js';
 
 /** One outbox row as plain data. Times are epoch ms; the columns hold ISO 8601 UTC text. */
 export interface OutboxRow extends OutboxMessage {

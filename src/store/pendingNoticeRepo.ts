@@ -1,6 +1,6 @@
 import type { Database, Statement } from 'better-sqlite3';
 import type { NoticeKind } from '../alarms/alarmTypes.js';
-import type { NoticeAlarm, PendingNotice } from '../notify/noticeTypes.js';
+import type { NoticeAlarm, PendingNotice } from '../alarms/noticeTypes.js';
 import { createAlarmRepo } from './alarmRepo.js';
 
 const iso = (ms: number) => new Date(ms).toISOString();

@@ -1,4 +1,4 @@
-import type { LineQuality } from '../classify/loopTypes.js';
+import type { LineQuality } from '../classify/index.js';
 
 export interface LineQualitySummary extends LineQuality {
   /** Mean pulse interval, ms; null without intervals. */

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { createDirectNotices } from '../../src/daemon/createDirectNotices.js';
-import type { OutboxMessage } from '../../src/notify/outboxMessage.js';
+import type { OutboxMessage } from '../../src/model/outboxMessage.js';
 import type { NotifyEffect } from '../../src/notify/noticeQueue.js';
 import { sampleAlarm } from '../helpers/sampleAlarm.js';
 import { settings } from '../notify/helpers/fixtures.js';

@@ -3,7 +3,7 @@ import { policiesFromConfig } from '../../src/alarms/escalationPolicy.js';
 import { parseEstateConfig } from '../../src/estate/loadEstateConfig.js';
 import { dueEstateMail, initialEstateWatch, nextEstateMailAt, reconcileEstate, type EstateWatch, type SiteObservation } from '../../src/estate/estateWatch.js';
 import type { AlarmPayload } from '../../src/mqtt/sitePayloads.js';
-import type { OutboxMessage } from '../../src/notify/outboxMessage.js';
+import type { OutboxMessage } from '../../src/model/outboxMessage.js';
 
 /**
  * The estate's own alarms on a fake clock: a site alarm seen unacknowledged is mailed, repeated and

@@ -1,5 +1,5 @@
 import type { AlarmRecord } from '../../src/alarms/alarmTypes.js';
-import type { NoticeAlarm } from '../../src/notify/noticeTypes.js';
+import type { NoticeAlarm } from '../../src/alarms/noticeTypes.js';
 
 /**
  * The one hand-written sample alarm the alarm, store and notify tests start from: well pit tripped,

@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { CONDITION_TEXT } from '../../src/model/condition.js';
 import { verifyAckToken } from '../../src/notify/ackToken.js';
 import { composeNoticeMail, type NoticeComposeContext } from '../../src/notify/composeNoticeMail.js';
-import type { Digest, NoticeAlarm, PendingNotice } from '../../src/notify/noticeTypes.js';
+import type { Digest, NoticeAlarm, PendingNotice } from '../../src/alarms/noticeTypes.js';
 import { sampleNoticeAlarm } from '../helpers/sampleAlarm.js';
 import { secret, settings } from './helpers/fixtures.js';
 

@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { NOTICE_KINDS } from '../../src/alarms/alarmTypes.js';
 import { ALARM_STATES } from '../../src/model/alarmState.js';
 import { composeNoticeMail, type NoticeComposeContext } from '../../src/notify/composeNoticeMail.js';
-import type { NoticeAlarm, PendingNotice } from '../../src/notify/noticeTypes.js';
+import type { NoticeAlarm, PendingNotice } from '../../src/alarms/noticeTypes.js';
 import { sampleNoticeAlarm } from '../helpers/sampleAlarm.js';
 import { settings } from './helpers/fixtures.js';
 

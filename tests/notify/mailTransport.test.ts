@@ -5,7 +5,7 @@ import { simpleParser } from 'mailparser';
 import { MailSendError } from '../../src/notify/mailSendError.js';
 import { createDropFolderTransport, createSmtpTransport, type MailTransport, type SmtpConfig } from '../../src/notify/mailTransport.js';
 import { NotifyError } from '../../src/notify/notifyError.js';
-import type { OutboxMessage } from '../../src/notify/outboxMessage.js';
+import type { OutboxMessage } from '../../src/model/outboxMessage.js';
 import { freePort } from '../helpers/freePort.js';
 import { startSmtpSink, type SmtpSink } from '../helpers/smtpSink.js';
 import { useTempDirs } from '../helpers/tempDir.js';

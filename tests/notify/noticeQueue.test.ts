@@ -1,6 +1,6 @@
 import { afterEach, describe, expect, it } from 'vitest';
 import { planDigests, queueNotices, nextNoticeDueAt } from '../../src/notify/noticeQueue.js';
-import type { PendingNotice } from '../../src/notify/noticeTypes.js';
+import type { PendingNotice } from '../../src/alarms/noticeTypes.js';
 import { listPendingNotices } from '../../src/store/pendingNoticeRepo.js';
 import { recipientsOf } from '../../src/store/recipientRepo.js';
 import { insertAlarm, openTestDb, type TestDb } from './helpers/notifyDb.js';

@@ -1,4 +1,4 @@
-import type { LineQuality } from '../../src/classify/loopTypes.js';
+import type { LineQuality } from '../../src/classify/index.js';
 import type { EdgeRow } from '../../src/store/edgeRepo.js';
 import type { Store } from '../../src/store/openStore.js';
 

@@ -1,6 +1,6 @@
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
-import type { LineQuality } from '../../src/classify/loopTypes.js';
+import type { LineQuality } from '../../src/classify/index.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
 import { summarizeLineQuality } from '../../src/store/summarizeLineQuality.js';
 import { makeTempDir } from '../helpers/tempDir.js';

@@ -1,4 +1,4 @@
-import type { AlarmRecord, NoticeKind } from '../alarms/alarmTypes.js';
+import type { AlarmRecord, NoticeKind } from './alarmTypes.js';
 
 /** A notice waiting out its contact's grouping window (a pending_notices row). Times: epoch ms. */
 export interface PendingNotice {

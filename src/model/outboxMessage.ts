@@ -1,4 +1,4 @@
-import type { Priority } from '../model/condition.js';
+import type { Priority } from './condition.js';
 
 /** What a mail in the outbox is for. */
 export const OUTBOX_KINDS = ['notice', 'daily-report', 'lifecycle', 'test', 'reply-confirmation'] as const;
