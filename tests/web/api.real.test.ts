@@ -10,7 +10,7 @@ import {
   timelineSchema,
 } from '../../src/web/api/apiSchemas.js';
 import { BOARD_END_US, startBoardSite, type RealTestWeb } from './fixtures/realSite.js';
-import { START_MS, startTestWeb } from './fixtures/testWeb.js';
+import { apiCalls, START_MS, startTestWeb } from './fixtures/testWeb.js';
 
 /*
  * The API over the real monitor core (realSite.ts): the states, alarms and refusals here are the alarm
@@ -28,14 +28,7 @@ afterEach(async () => {
   await web.close();
 });
 
-const get = (url: string, token = web.tokens.viewer) => web.app.inject({ method: 'GET', url, headers: { authorization: `Bearer ${token}` } });
-const post = (url: string, body?: unknown, token = web.tokens.operator) =>
-  web.app.inject({
-    method: 'POST',
-    url,
-    headers: { authorization: `Bearer ${token}`, ...(body === undefined ? {} : { 'content-type': 'application/json' }) },
-    ...(body === undefined ? {} : { payload: JSON.stringify(body) }),
-  });
+const { get, post } = apiCalls(() => web);
 const iso = (msAfterStart: number) => new Date(START_MS + msAfterStart).toISOString();
 
 type Loop = { id: string; state: string; since: string; lastPulseAt: string | null; alarm: { id: number; condition: string; priority: string; state: string } | null };

@@ -9,7 +9,7 @@ import {
   loopSchema,
   timelineSchema,
 } from '../../src/web/api/apiSchemas.js';
-import { startTestWeb, type TestWeb } from './fixtures/testWeb.js';
+import { apiCalls, startTestWeb, type TestWeb } from './fixtures/testWeb.js';
 
 let web: TestWeb;
 beforeEach(async () => {
@@ -19,14 +19,7 @@ afterEach(async () => {
   await web.close();
 });
 
-const get = (url: string, token = web.tokens.viewer) => web.app.inject({ method: 'GET', url, headers: { authorization: `Bearer ${token}` } });
-const post = (url: string, body?: unknown, token = web.tokens.operator) =>
-  web.app.inject({
-    method: 'POST',
-    url,
-    headers: { authorization: `Bearer ${token}`, ...(body === undefined ? {} : { 'content-type': 'application/json' }) },
-    ...(body === undefined ? {} : { payload: JSON.stringify(body) }),
-  });
+const { get, post } = apiCalls(() => web);
 
 // ISO 8601 / RFC 3339 §5.6 date-time in UTC with the Z designator.
 const ISO_UTC = /^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}:\d{2}(\.\d+)?Z$/;
