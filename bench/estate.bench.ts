@@ -3,7 +3,7 @@ import mqtt, { type MqttClient } from 'mqtt';
 import { parseEstateConfig } from '../src/estate/loadEstateConfig.js';
 import { startEstate } from '../src/estate/startEstate.js';
 import { siteTopics } from '../src/mqtt/siteTopics.js';
-import { insertApiToken } from '../src/store/apiTokenRepo.js';
+import { insertApiToken } from '../src/store/accountRepos.js';
 import { newApiToken, sha256Hex } from '../src/web/auth/secretToken.js';
 import type { BenchOptions, BenchResult, BenchRow } from './benchTypes.js';
 import { startBenchBroker } from './support/benchBroker.js';

@@ -2,7 +2,7 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { parseLine } from '../src/protocol/parseLine.js';
 import { parseScenario } from '../src/sim/loadScenario.js';
-import { findPackageRoot } from '../src/store/packageRoot.js';
+import { findPackageRoot } from '../src/store/openDatabase.js';
 import type { BenchOptions, BenchResult, BenchRow } from './benchTypes.js';
 import { infoRow } from './benchTypes.js';
 import { runFirmware, truthFromPins, waveformFromScenario, type BandStep, type Capture, type Waveform } from './firmwareSim.js';

@@ -7,7 +7,7 @@ import type { Band } from '../src/model/band.js';
 import { parseLine } from '../src/protocol/parseLine.js';
 import { createSimulator } from '../src/sim/createSimulator.js';
 import type { Scenario } from '../src/sim/scenarioSchema.js';
-import { findPackageRoot } from '../src/store/packageRoot.js';
+import { findPackageRoot } from '../src/store/openDatabase.js';
 import { LOOP_PINS, levelsFor } from './firmwarePins.js';
 
 /**

@@ -3,7 +3,7 @@ import { mkdirSync, writeFileSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { parseArgs } from 'node:util';
-import { findPackageRoot } from '../src/store/packageRoot.js';
+import { findPackageRoot } from '../src/store/openDatabase.js';
 import { BENCH_NAMES, type BenchName, type BenchResult } from './benchTypes.js';
 import { SCENARIOS } from './scenarios.js';
 import { consoleTable, markdownTable, targetSummary } from './support/formatResults.js';

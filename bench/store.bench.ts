@@ -3,7 +3,7 @@ import Database from 'better-sqlite3';
 import type { LoopState } from '../src/model/loopState.js';
 import type { EdgeRow } from '../src/store/edgeRepo.js';
 import { openStore, type Store } from '../src/store/openStore.js';
-import type { NewStateChange } from '../src/store/stateChangeRepo.js';
+import type { NewStateChange } from '../src/store/history.js';
 import type { BenchOptions, BenchResult, BenchRow } from './benchTypes.js';
 import { loopIdFor } from './support/benchSite.js';
 import { median } from './support/percentile.js';

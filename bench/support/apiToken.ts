@@ -1,4 +1,4 @@
-import { insertApiToken } from '../../src/store/apiTokenRepo.js';
+import { insertApiToken } from '../../src/store/accountRepos.js';
 import { openStore } from '../../src/store/openStore.js';
 import { newApiToken, sha256Hex } from '../../src/web/auth/secretToken.js';
 

@@ -1,7 +1,7 @@
 import { existsSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { parseArgs } from 'node:util';
-import { backupFileTo } from '../store/backupFileTo.js';
+import { backupFileTo } from '../store/backup.js';
 import { defineCommand, UsageError } from './defineCommand.js';
 import { DEFAULT_CONFIG_PATH, loadConfigForCli } from './loadConfigForCli.js';
 

@@ -1,8 +1,8 @@
 import { randomBytes } from 'node:crypto';
 import { join } from 'node:path';
 import { parseArgs } from 'node:util';
-import { findPackageRoot } from '../store/packageRoot.js';
-import { findUserByName, insertUser, updateUserPassword } from '../store/userRepo.js';
+import { findPackageRoot } from '../store/openDatabase.js';
+import { findUserByName, insertUser, updateUserPassword } from '../store/accountRepos.js';
 import { hashPassword } from '../web/auth/passwordHash.js';
 import { defineCommand } from './defineCommand.js';
 import { loadConfigForCli } from './loadConfigForCli.js';

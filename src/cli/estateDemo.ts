@@ -9,7 +9,7 @@ import { createLogger } from '../daemon/createLogger.js';
 import { startMonitor, type Monitor } from '../daemon/startMonitor.js';
 import { parseEstateConfig } from '../estate/loadEstateConfig.js';
 import { startEstate } from '../estate/startEstate.js';
-import { insertUser } from '../store/userRepo.js';
+import { insertUser } from '../store/accountRepos.js';
 import { hashPassword } from '../web/auth/passwordHash.js';
 import type { CliIo } from './cliTypes.js';
 

@@ -1,6 +1,6 @@
 import { resolve } from 'node:path';
 import { parseArgs } from 'node:util';
-import { restoreFrom } from '../store/restoreFrom.js';
+import { restoreFrom } from '../store/backup.js';
 import { StoreError } from '../store/storeError.js';
 import { defineCommand, UsageError } from './defineCommand.js';
 import { DEFAULT_CONFIG_PATH, loadConfigForCli } from './loadConfigForCli.js';

@@ -1,7 +1,6 @@
 import { parseArgs } from 'node:util';
-import { findApiTokenByName, insertApiToken, listApiTokens, revokeApiToken } from '../store/apiTokenRepo.js';
+import { findApiTokenByName, insertApiToken, listApiTokens, revokeApiToken, USER_ROLES } from '../store/accountRepos.js';
 import type { Store } from '../store/openStore.js';
-import { USER_ROLES } from '../store/userRepo.js';
 import { accountNameProblem } from '../web/auth/accountName.js';
 import { isUserRole } from '../web/auth/roles.js';
 import { newApiToken, sha256Hex } from '../web/auth/secretToken.js';

@@ -4,7 +4,7 @@ import { PRIORITY_TAG } from '../notify/mailLayout.js';
 import { escapeHtml } from '../notify/escapeHtml.js';
 import { formatSiteAndUtc } from '../notify/formatSiteTime.js';
 import type { OutboxMessage } from '../model/outboxMessage.js';
-import type { StorageFailure } from '../store/storageFailure.js';
+import type { StorageFailure } from '../store/createDurableWriter.js';
 
 /**
  * The one mail that cannot go through the outbox: the outbox lives in the database that is failing.

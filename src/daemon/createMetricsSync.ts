@@ -1,7 +1,7 @@
 import type { SiteConfig } from '../config/schema.js';
 import { DROP_REASONS } from '../protocol/frame.js';
 import type { Metrics } from '../ops/metrics.js';
-import { databaseSize } from '../store/databaseSize.js';
+import { databaseSize } from '../store/openDatabase.js';
 import { outboxBacklog } from '../store/outboxRepo.js';
 import type { Store } from '../store/openStore.js';
 import type { MonitorCore } from './monitorCore.js';

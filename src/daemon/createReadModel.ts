@@ -6,7 +6,7 @@ import { CONDITION_TEXT, PRIORITY_RANK } from '../model/condition.js';
 import type { LoopState } from '../model/loopState.js';
 import type { DurableWriter } from '../store/createDurableWriter.js';
 import type { Store } from '../store/openStore.js';
-import { recipientsOf } from '../store/recipientRepo.js';
+import { recipientsOf } from '../store/alarmRepo.js';
 import type {
   AlarmDetailView,
   AlarmView,

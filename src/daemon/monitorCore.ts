@@ -15,7 +15,7 @@ import type { SiteEffect, SiteInput, SiteState } from '../site/siteTypes.js';
 import type { DurableWriter } from '../store/createDurableWriter.js';
 import type { EdgeRow } from '../store/edgeRepo.js';
 import type { Store } from '../store/openStore.js';
-import { recordRecipient } from '../store/recipientRepo.js';
+import { recordRecipient } from '../store/alarmRepo.js';
 import type { DirectNotices } from './createDirectNotices.js';
 
 /**

@@ -1,10 +1,8 @@
 import { join } from 'node:path';
 import type { Logger } from 'pino';
 import type { SiteConfig } from '../config/schema.js';
-import { applyRetention } from '../store/applyRetention.js';
-import { integrityProblems, restoreAdvice } from '../store/checkPairwatchDatabase.js';
-import { dailyBackup } from '../store/dailyBackup.js';
-import { pruneEdges } from '../store/pruneEdges.js';
+import { applyRetention, pruneEdges } from '../store/retention.js';
+import { integrityProblems, restoreAdvice, dailyBackup } from '../store/backup.js';
 import type { Store } from '../store/openStore.js';
 
 const DAY_MS = 86_400_000;

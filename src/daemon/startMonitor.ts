@@ -15,11 +15,10 @@ import { mailbox, noticeSettingsFromConfig, publicUrlFor } from '../notify/notic
 import { createOutboxWorker } from '../notify/outboxWorker.js';
 import { createMetrics } from '../ops/metrics.js';
 import { createStallGuard } from '../ops/stallGuard.js';
-import { createDurableWriter } from '../store/createDurableWriter.js';
+import { createDurableWriter, fileGoneFailure, type StorageFailure } from '../store/createDurableWriter.js';
 import { openStore, type Store } from '../store/openStore.js';
-import { integrityProblems, restoreAdvice } from '../store/checkPairwatchDatabase.js';
+import { integrityProblems, restoreAdvice } from '../store/backup.js';
 import { makePrivateDir } from '../store/privateFiles.js';
-import { fileGoneFailure, type StorageFailure } from '../store/storageFailure.js';
 import { lockFileFor } from '../store/storeLock.js';
 import { enqueueOutbox, recordMailAudit } from '../store/outboxRepo.js';
 import { insertPendingNotice } from '../store/pendingNoticeRepo.js';

@@ -1,5 +1,5 @@
 import type BetterSqlite3 from 'better-sqlite3';
-import { findLiveApiTokenByHash } from '../store/apiTokenRepo.js';
+import { findLiveApiTokenByHash } from '../store/accountRepos.js';
 import { tokenActor } from '../web/auth/accountName.js';
 import { roleAllows } from '../web/auth/roles.js';
 import { sha256Hex } from '../web/auth/secretToken.js';

@@ -1,7 +1,7 @@
 import type { Database } from 'better-sqlite3';
 import { enqueueOutbox, recordMailAudit } from '../store/outboxRepo.js';
 import { deletePendingNotices, listPendingNotices, loadNoticeAlarms, setAlarmThreadIds } from '../store/pendingNoticeRepo.js';
-import { recipientsOf } from '../store/recipientRepo.js';
+import { recipientsOf } from '../store/alarmRepo.js';
 import { composeNoticeMail } from './composeNoticeMail.js';
 import type { NoticeAlarm } from '../alarms/noticeTypes.js';
 import { planDigests } from './noticeQueue.js';

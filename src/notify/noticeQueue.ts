@@ -1,7 +1,7 @@
 import type { Database } from 'better-sqlite3';
 import type { AlarmEffect } from '../alarms/alarmTypes.js';
 import { contactWindowDueAt, insertPendingNotice, nextPendingNoticeDueAt } from '../store/pendingNoticeRepo.js';
-import { recordRecipient } from '../store/recipientRepo.js';
+import { recordRecipient } from '../store/alarmRepo.js';
 import type { Digest, PendingNotice } from '../alarms/noticeTypes.js';
 
 export type NotifyEffect = Extract<AlarmEffect, { kind: 'notify' }>;

@@ -1,5 +1,5 @@
 import type { Database } from 'better-sqlite3';
-import { ackTokenUsedAt, markAckTokenUsed } from '../store/ackTokenRepo.js';
+import { ackTokenUsedAt, markAckTokenUsed } from '../store/alarmRepo.js';
 import { verifyAckToken } from './ackToken.js';
 
 export type AckLinkRefusal = 'malformed' | 'forged' | 'expired' | 'used' | 'other-alarm';

@@ -1,10 +1,11 @@
+// Alarms: the alarm rows, who has been told about each one, and the single-use acknowledge tokens spent on them.
 import type { SqliteDatabase } from './openDatabase.js';
 import type { AlarmRecord, EscalationProgress } from '../alarms/alarmTypes.js';
 import { ALARM_STATES, LISTED_ALARM_STATES } from '../model/alarmState.js';
 import { CONDITIONS, PRIORITIES } from '../model/condition.js';
-import { checkRowValue } from './checkRowValue.js';
+import { checkRowValue, StoreError } from './storeError.js';
 import { fromIso, fromIsoOrNull, toIso, toIsoOrNull } from './isoTime.js';
-import { StoreError } from './storeError.js';
+import type { Database, Statement } from 'better-sqlite3';
 
 export interface AlarmListQuery {
   /** active: the states still listed (unacknowledged, acknowledged, returned-unacknowledged, shelved). */
@@ -157,4 +158,70 @@ export function createAlarmRepo(db: SqliteDatabase): AlarmRepo {
       return (getThread.get(id) as string | null | undefined) ?? null;
     },
   };
+}
+
+export interface AlarmRecipient {
+  alarmId: number;
+  contactId: string;
+  firstQueuedAt: number;
+}
+
+interface RecipientStatements {
+  insert: Statement;
+  ofAlarm: Statement;
+}
+const cache = new WeakMap<Database, RecipientStatements>();
+
+function statements(db: Database): RecipientStatements {
+  let s = cache.get(db);
+  if (!s) {
+    s = {
+      insert: db.prepare(
+        'INSERT INTO alarm_recipients (alarm_id, contact_id, first_queued_at) VALUES (?, ?, ?) ON CONFLICT DO NOTHING',
+      ),
+      ofAlarm: db.prepare('SELECT alarm_id, contact_id, first_queued_at FROM alarm_recipients WHERE alarm_id = ? ORDER BY first_queued_at, contact_id'),
+    };
+    cache.set(db, s);
+  }
+  return s;
+}
+
+/** Records that a contact has been told about an alarm; the first time is kept. */
+export function recordRecipient(db: Database, alarmId: number, contactId: string, at: number): void {
+  statements(db).insert.run(alarmId, contactId, new Date(at).toISOString());
+}
+
+/** Who has been told about an alarm, first told first. */
+export function recipientsOf(db: Database, alarmId: number): AlarmRecipient[] {
+  const rows = statements(db).ofAlarm.all(alarmId) as Array<{ alarm_id: number; contact_id: string; first_queued_at: string }>;
+  return rows.map((row) => ({ alarmId: row.alarm_id, contactId: row.contact_id, firstQueuedAt: Date.parse(row.first_queued_at) }));
+}
+
+interface AckTokenStatements {
+  insert: Statement;
+  find: Statement;
+}
+const ackTokenCache = new WeakMap<Database, AckTokenStatements>();
+
+function ackTokenStatements(db: Database): AckTokenStatements {
+  let s = ackTokenCache.get(db);
+  if (!s) {
+    s = {
+      insert: db.prepare('INSERT INTO used_ack_tokens (token_id, used_at) VALUES (?, ?) ON CONFLICT (token_id) DO NOTHING'),
+      find: db.prepare('SELECT used_at FROM used_ack_tokens WHERE token_id = ?'),
+    };
+    ackTokenCache.set(db, s);
+  }
+  return s;
+}
+
+/** Spends a single-use token. True the first time; false when it was already used (a replayed link). */
+export function markAckTokenUsed(db: Database, tokenId: string, at: number): boolean {
+  return ackTokenStatements(db).insert.run(tokenId, new Date(at).toISOString()).changes === 1;
+}
+
+/** When the token was spent, or null: lets the confirmation page say "this link was already used" before any POST. */
+export function ackTokenUsedAt(db: Database, tokenId: string): number | null {
+  const row = ackTokenStatements(db).find.get(tokenId) as { used_at: string } | undefined;
+  return row ? Date.parse(row.used_at) : null;
 }

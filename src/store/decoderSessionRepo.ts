@@ -1,6 +1,5 @@
 import type { SqliteDatabase } from './openDatabase.js';
-import { HOUR_MS, floorTo } from './hourBucket.js';
-import { fromIso, fromIsoOrNull, toIso } from './isoTime.js';
+import { HOUR_MS, floorTo, fromIso, fromIsoOrNull, toIso } from './isoTime.js';
 
 export interface FrameCounters {
   frames: number;

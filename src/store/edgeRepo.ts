@@ -1,6 +1,6 @@
 import type { SqliteDatabase } from './openDatabase.js';
 import { BANDS, type Band } from '../model/band.js';
-import { checkRowValue } from './checkRowValue.js';
+import { checkRowValue } from './storeError.js';
 import { fromIso, toIso } from './isoTime.js';
 
 export interface EdgeRow {

@@ -1,3 +1,4 @@
+// Time as the store keeps it: ISO text in columns, epoch ms in code, hour and minute buckets, and the time-range filters of paged lists.
 import { StoreError } from './storeError.js';
 
 /**
@@ -37,4 +38,31 @@ export function fromIso(text: string, where: string): number {
 
 export function fromIsoOrNull(text: string | null, where: string): number | null {
   return text === null ? null : fromIso(text, where);
+}
+
+/** The optional filters every paged history list takes: a loop, a time range (epoch ms) and a cursor id. */
+export interface RangeQuery {
+  loopId?: string;
+  since?: number;
+  until?: number;
+  afterId?: number;
+  limit: number;
+}
+
+/** Named SQL parameters for a RangeQuery: absent filters become NULL, which the queries treat as "any". */
+export function rangeParams(query: RangeQuery) {
+  return {
+    loopId: query.loopId ?? null,
+    since: query.since === undefined ? null : toIso(query.since),
+    until: query.until === undefined ? null : toIso(query.until),
+    afterId: query.afterId ?? 0,
+    limit: query.limit,
+  };
+}
+
+export const MINUTE_MS = 60_000;
+export const HOUR_MS = 3_600_000;
+
+export function floorTo(ms: number, stepMs: number): number {
+  return Math.floor(ms / stepMs) * stepMs;
 }

@@ -1,6 +1,6 @@
 import type { SqliteDatabase } from './openDatabase.js';
 import { LOOP_STATES, type LoopState } from '../model/loopState.js';
-import { checkRowValue } from './checkRowValue.js';
+import { checkRowValue } from './storeError.js';
 import { fromIso, fromIsoOrNull, toIso } from './isoTime.js';
 
 export interface LoopStatusRecord {

@@ -1,11 +1,10 @@
-import { existsSync, statSync } from 'node:fs';
-import { dirname } from 'node:path';
+// The database file: opening it with the right pragmas, applying numbered migrations, finding the package's migrations folder, its size, and free sibling paths for copies.
+import { existsSync, statSync, readdirSync, readFileSync } from 'node:fs';
+import { dirname, join } from 'node:path';
 import Database from 'better-sqlite3';
-import { defaultMigrationsDir } from './packageRoot.js';
-import { readMigrations } from './readMigrations.js';
 import { StoreError, describeError } from './storeError.js';
 import { makePrivateDir, makePrivateFile, tightenIfPresent } from './privateFiles.js';
-import { uniqueSiblingPath } from './uniqueSiblingPath.js';
+import { fileURLToPath } from 'node:url';
 
 export type SqliteDatabase = Database.Database;
 
@@ -150,4 +149,91 @@ function inspectVersion(db: SqliteDatabase, path: string): number | null {
   }
   const row = db.prepare('SELECT max(version) AS version FROM schema_migrations').get() as { version: number | null };
   return row.version;
+}
+
+export interface Migration {
+  version: number;
+  /** File name, e.g. 001_core.sql. */
+  name: string;
+  sql: string;
+}
+
+/** Numbered files only (`NNN_words.sql`); anything else in the folder is ignored, not guessed at. */
+const MIGRATION_FILE = /^(\d{3,})_[A-Za-z0-9_-]+\.sql$/;
+
+export function readMigrations(dir: string): Migration[] {
+  let names: string[];
+  try {
+    names = readdirSync(dir);
+  } catch (error) {
+    throw new StoreError('PW_STORE_NO_MIGRATIONS', `cannot read the migrations folder ${dir}: ${describeError(error)}`, {
+      cause: error,
+    });
+  }
+  const migrations: Migration[] = [];
+  const seen = new Map<number, string>();
+  for (const name of names) {
+    const match = MIGRATION_FILE.exec(name);
+    if (!match?.[1]) continue;
+    const version = Number(match[1]);
+    const clash = seen.get(version);
+    if (clash) throw new StoreError('PW_STORE_NO_MIGRATIONS', `migrations ${clash} and ${name} have the same number ${version}`);
+    seen.set(version, name);
+    migrations.push({ version, name, sql: readFileSync(join(dir, name), 'utf8') });
+  }
+  if (migrations.length === 0) throw new StoreError('PW_STORE_NO_MIGRATIONS', `no NNN_name.sql files in ${dir}`);
+  return migrations.sort((a, b) => a.version - b.version);
+}
+
+/**
+ * The folder holding pairwatch's package.json, found by walking up from this module. The same code
+ * runs from src/store (vitest) and from dist/src/store (after tsc), so a fixed `../..` would be wrong
+ * in one of them.
+ */
+export function findPackageRoot(fromUrl: string = import.meta.url): string {
+  let dir = dirname(fileURLToPath(fromUrl));
+  for (;;) {
+    const candidate = join(dir, 'package.json');
+    if (existsSync(candidate)) {
+      try {
+        const pkg = JSON.parse(readFileSync(candidate, 'utf8')) as { name?: unknown };
+        if (pkg.name === 'pairwatch') return dir;
+      } catch {
+        // an unreadable package.json is not ours; keep walking
+      }
+    }
+    const parent = dirname(dir);
+    if (parent === dir) throw new Error('pairwatch package root not found above ' + fileURLToPath(fromUrl));
+    dir = parent;
+  }
+}
+
+export function defaultMigrationsDir(): string {
+  return join(findPackageRoot(), 'migrations');
+}
+
+export interface DatabaseSize {
+  /** page_count × page_size: the main file's size once the WAL is checkpointed. */
+  bytes: number;
+  /** Free pages inside the file (given back to the disk by incremental vacuum). */
+  freeBytes: number;
+}
+
+export function databaseSize(db: SqliteDatabase): DatabaseSize {
+  const pageSize = db.pragma('page_size', { simple: true }) as number;
+  const pages = db.pragma('page_count', { simple: true }) as number;
+  const free = db.pragma('freelist_count', { simple: true }) as number;
+  return { bytes: pages * pageSize, freeBytes: free * pageSize };
+}
+
+/** `wanted` if free, else `wanted` with `.1`, `.2`, … before the extension: an earlier copy is never overwritten. */
+export function uniqueSiblingPath(wanted: string): string {
+  if (!existsSync(wanted)) return wanted;
+  const dot = wanted.lastIndexOf('.');
+  const stem = dot > 0 ? wanted.slice(0, dot) : wanted;
+  const ext = dot > 0 ? wanted.slice(dot) : '';
+  for (let n = 1; ; n++) {
+    const candidate = `${stem}.${n}${ext}`;
+    if (!existsSync(candidate)) return candidate;
+  }
 }

@@ -1,13 +1,11 @@
 import { createAlarmRepo, type AlarmRepo } from './alarmRepo.js';
-import { createAuditRepo, type AuditRepo } from './auditRepo.js';
+import { createAuditRepo, type AuditRepo, createEventsQuery, type EventsQuery, createStateChangeRepo, type StateChangeRepo } from './history.js';
 import { createDecoderSessionRepo, type DecoderSessionRepo } from './decoderSessionRepo.js';
 import { createEdgeRepo, type EdgeRepo } from './edgeRepo.js';
-import { createEventsQuery, type EventsQuery } from './eventsQuery.js';
 import { createKvRepo, type KvRepo } from './kvRepo.js';
 import { createLineQualityRepo, type LineQualityRepo } from './lineQualityRepo.js';
 import { createLoopStatusRepo, type LoopStatusRepo } from './loopStatusRepo.js';
 import { openDatabase, type OpenedDatabase, type SqliteDatabase } from './openDatabase.js';
-import { createStateChangeRepo, type StateChangeRepo } from './stateChangeRepo.js';
 import { acquireStoreLock, type StoreLock } from './storeLock.js';
 
 export interface OpenStoreOptions {

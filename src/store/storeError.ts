@@ -1,3 +1,6 @@
+// Errors the store raises, with a code a caller can branch on, and the check that a stored text column holds a known value.
+
+
 /** Every way the store can refuse or fail, as a stable code the CLI, web and logs can branch on. */
 export const STORE_ERROR_CODES = [
   'PW_STORE_OPEN_FAILED',
@@ -35,4 +38,10 @@ export function describeError(error: unknown): string {
     return typeof code === 'string' && !error.message.startsWith(code) ? `${code}: ${error.message}` : error.message;
   }
   return String(error);
+}
+
+/** Text from a column that must be one of a known set; a stray value is reported by column, not passed on. */
+export function checkRowValue<T extends string>(value: string, allowed: readonly T[], where: string): T {
+  if ((allowed as readonly string[]).includes(value)) return value as T;
+  throw new StoreError('PW_STORE_BAD_ROW', `${where}: unexpected value "${value}" (expected one of ${allowed.join(', ')})`);
 }

@@ -1,7 +1,7 @@
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { tokenCommand } from '../../src/cli/tokenCommand.js';
 import { openDatabase } from '../../src/store/openDatabase.js';
-import { findLiveApiTokenByHash } from '../../src/store/apiTokenRepo.js';
+import { findLiveApiTokenByHash } from '../../src/store/accountRepos.js';
 import { sha256Hex } from '../../src/web/auth/secretToken.js';
 import { makeSite, run } from './accountCommands.fixture.js';
 

@@ -1,7 +1,7 @@
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { userCommand } from '../../src/cli/userCommand.js';
 import { openDatabase } from '../../src/store/openDatabase.js';
-import { findUserByName } from '../../src/store/userRepo.js';
+import { findUserByName } from '../../src/store/accountRepos.js';
 import { verifyPassword } from '../../src/web/auth/passwordHash.js';
 import { makeSite, run } from './accountCommands.fixture.js';
 

@@ -4,7 +4,7 @@ import pino from 'pino';
 import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { parseConfig } from '../../src/config/loadConfig.js';
 import { startMonitor, type Monitor } from '../../src/daemon/startMonitor.js';
-import { ackTokenUsedAt } from '../../src/store/ackTokenRepo.js';
+import { ackTokenUsedAt } from '../../src/store/alarmRepo.js';
 import { verifyAckToken } from '../../src/notify/ackToken.js';
 import { loadOrCreateAckSecret } from '../../src/notify/ackSecret.js';
 import { faultSiteYaml } from '../faults/fixtures/siteYaml.js';

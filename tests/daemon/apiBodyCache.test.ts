@@ -4,7 +4,7 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/config/loadConfig.js';
 import { PRIORITY_RANK } from '../../src/model/condition.js';
 import { startMonitor, type Monitor } from '../../src/daemon/startMonitor.js';
-import { insertApiToken } from '../../src/store/apiTokenRepo.js';
+import { insertApiToken } from '../../src/store/accountRepos.js';
 import { openStore } from '../../src/store/openStore.js';
 import { newApiToken, sha256Hex } from '../../src/web/auth/secretToken.js';
 import { makeTempDir, type TempDir } from '../helpers/tempDir.js';

@@ -8,7 +8,7 @@ import { startMonitor, type Monitor } from '../../src/daemon/startMonitor.js';
 import { loadEstateConfig } from '../../src/estate/loadEstateConfig.js';
 import { renderEstateSiteDetail } from '../../src/estate/estatePages.js';
 import { startEstate, type Estate } from '../../src/estate/startEstate.js';
-import { insertApiToken } from '../../src/store/apiTokenRepo.js';
+import { insertApiToken } from '../../src/store/accountRepos.js';
 import { newApiToken, sha256Hex } from '../../src/web/auth/secretToken.js';
 import { ESTATE_USER, sitePassword, startMosquitto, type MosquittoBroker } from '../helpers/mosquittoBroker.js';
 import { makeTempDir, type TempDir } from '../helpers/tempDir.js';

@@ -10,7 +10,7 @@ import { startMonitor, type Monitor } from '../../src/daemon/startMonitor.js';
 import { isReporting, standingOf } from '../../src/estate/estateBook.js';
 import { loadEstateConfig } from '../../src/estate/loadEstateConfig.js';
 import { startEstate, type Estate } from '../../src/estate/startEstate.js';
-import { insertUser } from '../../src/store/userRepo.js';
+import { insertUser } from '../../src/store/accountRepos.js';
 import { hashPassword } from '../../src/web/auth/passwordHash.js';
 import { ESTATE_USER, startMosquitto, type MosquittoBroker } from '../helpers/mosquittoBroker.js';
 import { startSmtpSink, type SmtpSink } from '../helpers/smtpSink.js';

@@ -8,7 +8,7 @@ import { parseConfig } from '../../src/config/loadConfig.js';
 import { runMaintenance } from '../../src/daemon/runMaintenance.js';
 import { startMonitor, type Monitor } from '../../src/daemon/startMonitor.js';
 import { checkDatabase } from '../../src/ops/doctor/checkDatabase.js';
-import { dailyBackup } from '../../src/store/dailyBackup.js';
+import { dailyBackup } from '../../src/store/backup.js';
 import { openStore } from '../../src/store/openStore.js';
 import { useTempDirs } from '../helpers/tempDir.js';
 import { faultSiteYaml } from './fixtures/siteYaml.js';

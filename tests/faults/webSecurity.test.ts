@@ -7,7 +7,7 @@ import { promisify } from 'node:util';
 import fc from 'fast-check';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { openStore } from '../../src/store/openStore.js';
-import { insertUser } from '../../src/store/userRepo.js';
+import { insertUser } from '../../src/store/accountRepos.js';
 import { hashPassword } from '../../src/web/auth/passwordHash.js';
 import { startSmtpSink, type SmtpSink } from '../helpers/smtpSink.js';
 import { makeTempDir, type TempDir } from '../helpers/tempDir.js';

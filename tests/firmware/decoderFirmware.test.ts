@@ -10,7 +10,7 @@ import { parseLine } from '../../src/protocol/parseLine.js';
 import type { Frame } from '../../src/protocol/frame.js';
 import { parseScenario } from '../../src/sim/loadScenario.js';
 import { scenarioSchema, type ScenarioInput } from '../../src/sim/scenarioSchema.js';
-import { findPackageRoot } from '../../src/store/packageRoot.js';
+import { findPackageRoot } from '../../src/store/openDatabase.js';
 import { buildFirmware, CYCLES_PER_US, runFirmware, truthFromPins, waveformFromScenario, type Capture, type Waveform } from '../../bench/firmwareSim.js';
 
 /**

@@ -5,7 +5,7 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { encodeLine } from '../../src/protocol/encodeLine.js';
 import { scenarioSchema } from '../../src/sim/scenarioSchema.js';
-import { findPackageRoot } from '../../src/store/packageRoot.js';
+import { findPackageRoot } from '../../src/store/openDatabase.js';
 import { startSmtpSink, type SmtpSink } from '../helpers/smtpSink.js';
 import { startSocatPair, type SocatPair } from '../helpers/socatPair.js';
 import { stopChild } from '../helpers/stopChild.js';

@@ -6,7 +6,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { loadConfig } from '../../src/config/loadConfig.js';
 import { startMonitor, type Monitor } from '../../src/daemon/startMonitor.js';
 import { findInboxMessage, inboxOffset } from '../../src/store/inboxRepo.js';
-import { insertUser } from '../../src/store/userRepo.js';
+import { insertUser } from '../../src/store/accountRepos.js';
 import type { Condition } from '../../src/model/condition.js';
 import { startDovecot, dovecotAvailable, type DovecotServer } from '../helpers/dovecot.js';
 import { startSmtpSink, type SmtpSink } from '../helpers/smtpSink.js';

@@ -4,7 +4,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { loadConfig } from '../../src/config/loadConfig.js';
 import { startMonitor, type Monitor } from '../../src/daemon/startMonitor.js';
 import { siteTopics } from '../../src/mqtt/siteTopics.js';
-import { insertApiToken } from '../../src/store/apiTokenRepo.js';
+import { insertApiToken } from '../../src/store/accountRepos.js';
 import { newApiToken, sha256Hex } from '../../src/web/auth/secretToken.js';
 import { sitePassword, startMosquitto, type MosquittoBroker } from '../helpers/mosquittoBroker.js';
 import { makeTempDir, type TempDir } from '../helpers/tempDir.js';

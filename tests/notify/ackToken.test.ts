@@ -1,7 +1,7 @@
 import { afterEach, describe, expect, it } from 'vitest';
 import { computeAckMac, newAckTokenId, signAckToken, verifyAckToken } from '../../src/notify/ackToken.js';
 import { checkAckLink, redeemAckLink } from '../../src/notify/redeemAckToken.js';
-import { ackTokenUsedAt, markAckTokenUsed } from '../../src/store/ackTokenRepo.js';
+import { ackTokenUsedAt, markAckTokenUsed } from '../../src/store/alarmRepo.js';
 import { openTestDb, type TestDb } from './helpers/notifyDb.js';
 
 const secret = Buffer.alloc(32, 7);

@@ -2,7 +2,7 @@ import { afterEach, describe, expect, it } from 'vitest';
 import { planDigests, queueNotices, nextNoticeDueAt } from '../../src/notify/noticeQueue.js';
 import type { PendingNotice } from '../../src/alarms/noticeTypes.js';
 import { listPendingNotices } from '../../src/store/pendingNoticeRepo.js';
-import { recipientsOf } from '../../src/store/recipientRepo.js';
+import { recipientsOf } from '../../src/store/alarmRepo.js';
 import { insertAlarm, openTestDb, type TestDb } from './helpers/notifyDb.js';
 
 const t0 = Date.parse('2026-12-01T03:00:00.000Z');

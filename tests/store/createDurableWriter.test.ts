@@ -6,7 +6,7 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { createDurableWriter, type DurableWriterOptions } from '../../src/store/createDurableWriter.js';
 import type { EdgeRow } from '../../src/store/edgeRepo.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
-import type { StorageFailure } from '../../src/store/storageFailure.js';
+import type { StorageFailure } from '../../src/store/createDurableWriter.js';
 import { makeTempDir } from '../helpers/tempDir.js';
 import { T0 } from './storeTestKit.js';
 import { skipForMachine } from '../helpers/machineSkip.js';

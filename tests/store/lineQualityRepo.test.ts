@@ -2,7 +2,7 @@ import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import type { LineQuality } from '../../src/classify/index.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
-import { summarizeLineQuality } from '../../src/store/summarizeLineQuality.js';
+import { summarizeLineQuality } from '../../src/store/lineQualityRepo.js';
 import { makeTempDir } from '../helpers/tempDir.js';
 
 const MIN = 60_000;

@@ -4,9 +4,7 @@ import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import Database from 'better-sqlite3';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
-import { openDatabase } from '../../src/store/openDatabase.js';
-import { readMigrations } from '../../src/store/readMigrations.js';
-import { defaultMigrationsDir, findPackageRoot } from '../../src/store/packageRoot.js';
+import { openDatabase, readMigrations, defaultMigrationsDir, findPackageRoot } from '../../src/store/openDatabase.js';
 import { isStoreError } from '../../src/store/storeError.js';
 import { makeTempDir } from '../helpers/tempDir.js';
 
@@ -147,7 +145,7 @@ describe('openDatabase', () => {
   it('finds the migrations from src/ and from dist/src/ alike', () => {
     const root = findPackageRoot();
     expect(existsSync(join(root, 'migrations', '001_core.sql'))).toBe(true);
-    const fromDist = pathToFileURL(join(root, 'dist', 'src', 'store', 'packageRoot.js')).href;
+    const fromDist = pathToFileURL(join(root, 'dist', 'src', 'store', 'openDatabase.js')).href;
     expect(findPackageRoot(fromDist)).toBe(root);
   });
 });

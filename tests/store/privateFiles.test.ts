@@ -1,9 +1,7 @@
 import { chmodSync, mkdirSync, statSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
-import { backupFileTo } from '../../src/store/backupFileTo.js';
-import { backupTo } from '../../src/store/backupTo.js';
-import { dailyBackup } from '../../src/store/dailyBackup.js';
+import { backupFileTo, backupTo, dailyBackup } from '../../src/store/backup.js';
 import { openDatabase } from '../../src/store/openDatabase.js';
 import { openStore } from '../../src/store/openStore.js';
 import { makePrivateDir, makePrivateFile } from '../../src/store/privateFiles.js';

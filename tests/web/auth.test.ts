@@ -1,6 +1,5 @@
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
-import { listLoginFailures } from '../../src/store/loginFailureRepo.js';
-import { revokeApiToken } from '../../src/store/apiTokenRepo.js';
+import { listLoginFailures, revokeApiToken } from '../../src/store/accountRepos.js';
 import { cookieFrom, form, session, signIn, startTestWeb, USERS, type TestWeb } from './fixtures/testWeb.js';
 
 let web: TestWeb;

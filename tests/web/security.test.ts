@@ -1,6 +1,6 @@
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import pino from 'pino';
-import { listLoginFailures } from '../../src/store/loginFailureRepo.js';
+import { listLoginFailures } from '../../src/store/accountRepos.js';
 import { cookieFrom, csrfFrom, session, signIn, startTestWeb, testConfig, USERS, type TestWeb } from './fixtures/testWeb.js';
 
 let web: TestWeb;

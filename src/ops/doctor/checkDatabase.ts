@@ -1,6 +1,6 @@
 import { existsSync } from 'node:fs';
 import { resolve } from 'node:path';
-import { fileIntegrityProblems, restoreAdvice } from '../../store/checkPairwatchDatabase.js';
+import { fileIntegrityProblems, restoreAdvice } from '../../store/backup.js';
 import type { CheckResult } from './checkResult.js';
 import { failed, passed } from './checkResult.js';
 

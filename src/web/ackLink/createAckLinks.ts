@@ -1,7 +1,7 @@
 import type BetterSqlite3 from 'better-sqlite3';
 import { verifyAckToken } from '../../notify/ackToken.js';
 import { redeemAckLink } from '../../notify/redeemAckToken.js';
-import { ackTokenUsedAt } from '../../store/ackTokenRepo.js';
+import { ackTokenUsedAt } from '../../store/alarmRepo.js';
 import type { AckLinkPort } from './ackLinkPort.js';
 
 /** The real acknowledge-link checks: the notify module's signed tokens, spent in the store's table. */

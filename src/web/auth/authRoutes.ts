@@ -1,7 +1,5 @@
 import type { FastifyInstance, FastifyReply } from 'fastify';
-import { countLoginFailures, deleteLoginFailure, deleteLoginFailuresBefore, insertLoginFailure } from '../../store/loginFailureRepo.js';
-import { findUserByName } from '../../store/userRepo.js';
-import { deleteExpiredWebSessions, deleteWebSession, insertWebSession } from '../../store/webSessionRepo.js';
+import { countLoginFailures, deleteLoginFailure, deleteLoginFailuresBefore, insertLoginFailure, findUserByName, deleteExpiredWebSessions, deleteWebSession, insertWebSession } from '../../store/accountRepos.js';
 import { formBody, formField } from '../http/formFields.js';
 import { safeNextPath } from '../http/requestKind.js';
 import { renderLoginPage } from '../pages/loginPage.js';

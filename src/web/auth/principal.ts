@@ -1,4 +1,4 @@
-import type { UserRole } from '../../store/userRepo.js';
+import type { UserRole } from '../../store/accountRepos.js';
 
 /** Who is making a request: a signed-in browser session or an API token. */
 export interface Principal {

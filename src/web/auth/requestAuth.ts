@@ -1,5 +1,5 @@
 import type { FastifyRequest } from 'fastify';
-import type { UserRole } from '../../store/userRepo.js';
+import type { UserRole } from '../../store/accountRepos.js';
 import { WebError } from '../webErrors.js';
 import type { WebContext } from '../webContext.js';
 import { csrfProblem, originProblem } from './csrfCheck.js';

@@ -1,6 +1,5 @@
 import type BetterSqlite3 from 'better-sqlite3';
-import { findLiveApiTokenByHash } from '../../store/apiTokenRepo.js';
-import { findWebSession, touchWebSession } from '../../store/webSessionRepo.js';
+import { findLiveApiTokenByHash, findWebSession, touchWebSession } from '../../store/accountRepos.js';
 import type { Principal } from './principal.js';
 import { tokenActor } from './accountName.js';
 import { sha256Hex } from './secretToken.js';

@@ -1,4 +1,4 @@
-import { USER_ROLES, type UserRole } from '../../store/userRepo.js';
+import { USER_ROLES, type UserRole } from '../../store/accountRepos.js';
 
 /** Each role can do everything the roles before it can. */
 const ROLE_RANK = { viewer: 0, operator: 1, admin: 2 } as const satisfies Record<UserRole, number>;

@@ -1,6 +1,6 @@
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
-import type { TimelineEvent } from '../../src/store/eventsQuery.js';
+import type { TimelineEvent } from '../../src/store/history.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
 import { isStoreError } from '../../src/store/storeError.js';
 import { makeTempDir } from '../helpers/tempDir.js';

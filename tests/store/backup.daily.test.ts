@@ -1,7 +1,7 @@
 import { readdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
-import { dailyBackup, dailyBackupName } from '../../src/store/dailyBackup.js';
+import { dailyBackup, dailyBackupName } from '../../src/store/backup.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
 import { makeTempDir } from '../helpers/tempDir.js';
 

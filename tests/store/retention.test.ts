@@ -2,7 +2,7 @@ import { statSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { siteConfigSchema } from '../../src/config/schema.js';
-import { applyRetention, type RetentionReport } from '../../src/store/applyRetention.js';
+import { applyRetention, type RetentionReport } from '../../src/store/retention.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
 import { generateYear, type YearPlan, type YearTotals } from './generateYear.js';
 import { makeTempDir } from '../helpers/tempDir.js';

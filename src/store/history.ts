@@ -1,10 +1,164 @@
+// History: the audit trail of operator actions, loop state changes, and the combined event list read from both.
 import type { SqliteDatabase } from './openDatabase.js';
-import { AUDIT_ACTIONS, type AuditAction } from '../alarms/alarmTypes.js';
-import { CONDITION_PRIORITY, CONDITIONS, PRIORITIES, type Condition, type Priority } from '../model/condition.js';
+import { AUDIT_ACTIONS, type AuditEntry, type AuditAction } from '../alarms/alarmTypes.js';
+import { checkRowValue, StoreError } from './storeError.js';
+import { fromIso, toIso, rangeParams } from './isoTime.js';
 import { LOOP_STATES, type LoopState } from '../model/loopState.js';
-import { checkRowValue } from './checkRowValue.js';
-import { fromIso, toIso } from './isoTime.js';
-import { StoreError } from './storeError.js';
+import { CONDITION_PRIORITY, CONDITIONS, PRIORITIES, type Condition, type Priority } from '../model/condition.js';
+
+export interface AuditRecord extends AuditEntry {
+  id: number;
+}
+
+export interface AuditListQuery {
+  /** Rows naming the loop, or belonging to an alarm on that loop. */
+  loopId?: string;
+  since?: number;
+  until?: number;
+  limit: number;
+  /** Continue after this id (ascending). */
+  afterId?: number;
+}
+
+export interface AuditRepo {
+  /** The alarm (if any) must already be in the alarms table: foreign keys are on. */
+  insert(entry: AuditEntry): number;
+  forAlarm(alarmId: number): AuditRecord[];
+  list(query: AuditListQuery): AuditRecord[];
+}
+
+export interface AuditRow {
+  id: number;
+  at: string;
+  actor: string;
+  action: string;
+  alarm_id: number | null;
+  loop_id: string | null;
+  note: string | null;
+}
+
+export function toAuditRecord(row: AuditRow): AuditRecord {
+  const where = `audit[${row.id}]`;
+  return {
+    id: row.id,
+    at: fromIso(row.at, `${where}.at`),
+    actor: row.actor,
+    action: checkRowValue(row.action, AUDIT_ACTIONS, `${where}.action`),
+    alarmId: row.alarm_id,
+    loopId: row.loop_id,
+    note: row.note,
+  };
+}
+
+export function createAuditRepo(db: SqliteDatabase): AuditRepo {
+  const insert = db.prepare('INSERT INTO audit (at, actor, action, alarm_id, loop_id, note) VALUES (?, ?, ?, ?, ?, ?)');
+  const forAlarm = db.prepare('SELECT * FROM audit WHERE alarm_id = ? ORDER BY at, id');
+  const list = db.prepare(`
+    SELECT a.* FROM audit a LEFT JOIN alarms al ON al.id = a.alarm_id
+    WHERE (@loopId IS NULL OR a.loop_id = @loopId OR al.loop_id = @loopId)
+      AND (@since IS NULL OR a.at >= @since)
+      AND (@until IS NULL OR a.at < @until)
+      AND a.id > @afterId
+    ORDER BY a.id LIMIT @limit`);
+
+  return {
+    insert(entry) {
+      return Number(insert.run(toIso(entry.at), entry.actor, entry.action, entry.alarmId, entry.loopId, entry.note).lastInsertRowid);
+    },
+    forAlarm(alarmId) {
+      return (forAlarm.all(alarmId) as AuditRow[]).map(toAuditRecord);
+    },
+    list(query) {
+      const rows = list.all(rangeParams(query)) as AuditRow[];
+      return rows.map(toAuditRecord);
+    },
+  };
+}
+
+export interface NewStateChange {
+  loopId: string;
+  from: LoopState;
+  to: LoopState;
+  /** Unwrapped decoder time of the change; null when decided on host time (offline). */
+  decoderUs: number | null;
+  /** Host time, epoch ms. */
+  at: number;
+  reason: string;
+}
+
+export interface StateChangeRecord extends NewStateChange {
+  id: number;
+}
+
+export interface StateChangeListQuery {
+  loopId?: string;
+  /** Inclusive, epoch ms. */
+  since?: number;
+  /** Exclusive, epoch ms. */
+  until?: number;
+  limit: number;
+  /** Continue after this id (ascending id order). */
+  afterId?: number;
+}
+
+export interface StateChangeRepo {
+  insert(change: NewStateChange): number;
+  list(query: StateChangeListQuery): StateChangeRecord[];
+  /** The last change of a loop before `beforeMs`: the state a timeline starts in. */
+  latestBefore(loopId: string, beforeMs: number): StateChangeRecord | null;
+}
+
+interface StateChangeRow {
+  id: number;
+  loop_id: string;
+  from_state: string;
+  to_state: string;
+  decoder_us: number | bigint | null;
+  at: string;
+  reason: string;
+}
+
+export function toStateChangeRecord(row: StateChangeRow): StateChangeRecord {
+  const where = `state_changes[${row.id}]`;
+  return {
+    id: row.id,
+    loopId: row.loop_id,
+    from: checkRowValue(row.from_state, LOOP_STATES, `${where}.from_state`),
+    to: checkRowValue(row.to_state, LOOP_STATES, `${where}.to_state`),
+    decoderUs: row.decoder_us === null ? null : Number(row.decoder_us),
+    at: fromIso(row.at, `${where}.at`),
+    reason: row.reason,
+  };
+}
+
+export function createStateChangeRepo(db: SqliteDatabase): StateChangeRepo {
+  const insert = db.prepare(
+    'INSERT INTO state_changes (loop_id, from_state, to_state, decoder_us, at, reason) VALUES (?, ?, ?, ?, ?, ?)',
+  );
+  const list = db.prepare(`
+    SELECT * FROM state_changes
+    WHERE (@loopId IS NULL OR loop_id = @loopId)
+      AND (@since IS NULL OR at >= @since)
+      AND (@until IS NULL OR at < @until)
+      AND id > @afterId
+    ORDER BY id LIMIT @limit`);
+  const latestBefore = db.prepare('SELECT * FROM state_changes WHERE loop_id = ? AND at < ? ORDER BY at DESC, id DESC LIMIT 1');
+
+  return {
+    insert(change) {
+      const info = insert.run(change.loopId, change.from, change.to, change.decoderUs, toIso(change.at), change.reason);
+      return Number(info.lastInsertRowid);
+    },
+    list(query) {
+      const rows = list.all(rangeParams(query)) as StateChangeRow[];
+      return rows.map(toStateChangeRecord);
+    },
+    latestBefore(loopId, beforeMs) {
+      const row = latestBefore.get(loopId, toIso(beforeMs)) as StateChangeRow | undefined;
+      return row ? toStateChangeRecord(row) : null;
+    },
+  };
+}
 
 /** One entry of the history timeline: a loop's state change or an audit row (who did what). */
 export interface TimelineEvent {

@@ -1,9 +1,8 @@
+// Retention: how long raw edges, line-quality buckets and history are kept, and the pruning that enforces it.
 import type { SiteConfig } from '../config/schema.js';
 import type { Store } from './openStore.js';
-import { databaseSize } from './databaseSize.js';
-import { HOUR_MS, floorTo } from './hourBucket.js';
-import { toIso } from './isoTime.js';
-import { pruneEdges } from './pruneEdges.js';
+import { databaseSize } from './openDatabase.js';
+import { HOUR_MS, floorTo, toIso } from './isoTime.js';
 import { ADD_TO_EXISTING_BUCKET } from './lineQualityRepo.js';
 
 export type RetentionSettings = Pick<SiteConfig['storage']['retention'], 'edges' | 'minute_quality' | 'hourly_quality'>;
@@ -66,4 +65,24 @@ export function applyRetention(store: Store, retention: RetentionSettings, nowMs
   db.pragma('wal_checkpoint(TRUNCATE)');
 
   return { edgesDeleted, ...folded, bytesBefore, bytesAfter: databaseSize(db).bytes };
+}
+
+const CHUNK_ROWS = 20_000;
+
+/**
+ * Deletes raw edges received before `nowMs - keepMs`, in chunks, each its own transaction: a day of
+ * edges for many loops is millions of rows, and one huge delete would hold the write lock and grow the
+ * WAL by as much. Cheap enough to call hourly. Returns the rows deleted.
+ */
+export function pruneEdges(store: Store, keepMs: number, nowMs: number): number {
+  const cutoff = toIso(nowMs - keepMs);
+  const deleteChunk = store.db.prepare(
+    `DELETE FROM edges WHERE id IN (SELECT id FROM edges WHERE at < ? ORDER BY at LIMIT ${CHUNK_ROWS})`,
+  );
+  let total = 0;
+  for (;;) {
+    const deleted = store.transaction(() => deleteChunk.run(cutoff).changes);
+    total += deleted;
+    if (deleted < CHUNK_ROWS) return total;
+  }
 }

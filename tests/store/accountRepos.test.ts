@@ -2,11 +2,8 @@ import { join } from 'node:path';
 import Database from 'better-sqlite3';
 import type BetterSqlite3 from 'better-sqlite3';
 import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
-import { findLiveApiTokenByHash, insertApiToken, listApiTokens, revokeApiToken } from '../../src/store/apiTokenRepo.js';
-import { countLoginFailures, deleteLoginFailure, deleteLoginFailuresBefore, insertLoginFailure } from '../../src/store/loginFailureRepo.js';
+import { findLiveApiTokenByHash, insertApiToken, listApiTokens, revokeApiToken, countLoginFailures, deleteLoginFailure, deleteLoginFailuresBefore, insertLoginFailure, deleteUser, findUserByName, insertUser, listUsers, deleteExpiredWebSessions, findWebSession, insertWebSession, touchWebSession } from '../../src/store/accountRepos.js';
 import { openDatabase } from '../../src/store/openDatabase.js';
-import { deleteUser, findUserByName, insertUser, listUsers } from '../../src/store/userRepo.js';
-import { deleteExpiredWebSessions, findWebSession, insertWebSession, touchWebSession } from '../../src/store/webSessionRepo.js';
 import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
 
 let tmp: TempDir;
