@@ -3,6 +3,7 @@ import { siteConfigSchema } from '../../src/config/schema.js';
 import type { SiteConfig } from '../../src/config/schema.js';
 import type { AlarmRecord } from '../../src/alarms/alarmTypes.js';
 import type { AlarmContext } from '../../src/alarms/alarmInput.js';
+import type { LifecycleEvent } from '../../src/alarms/alarmLifecycle.js';
 import type { AlarmEffect, NoticeKind } from '../../src/alarms/alarmTypes.js';
 import { policiesFromConfig } from '../../src/alarms/escalationPolicy.js';
 import { sampleAlarm } from '../helpers/sampleAlarm.js';
@@ -65,4 +66,40 @@ export function audits(effects: AlarmEffect[]): string[] {
 
 export function alarmsIn(effects: AlarmEffect[]): AlarmRecord[] {
   return effects.flatMap((e) => (e.kind === 'alarm' ? [e.alarm] : []));
+}
+
+/**
+ * One alarm in every lifecycle state it can be in, at `now` (T0 + 10 min in the tables), made by
+ * `make` so a table can add what it needs (a pending escalation step). Shared by the ISA-18.2
+ * transition table and the escalation table, so both walk the same starting points.
+ */
+export function lifecycleStarts(now: number, make: (overrides: Partial<AlarmRecord>) => AlarmRecord = alarmRecord) {
+  return {
+    normal: make({ state: 'normal', active: false, clearedAt: T0 - HOUR, ackedAt: T0 - HOUR, closedAt: T0 - HOUR }),
+    unackActive: make({}),
+    unackLatched: make({ latched: true }),
+    latchedCleared: make({ latched: true, active: false, clearedAt: T0 + MIN }),
+    acked: make({ state: 'acknowledged', ackedAt: T0 + MIN, ackedBy: 'sam', note: 'on my way' }),
+    returned: make({ state: 'returned-unacknowledged', active: false, clearedAt: T0 + MIN }),
+    shelvedActive: make({ state: 'shelved', shelvedUntil: now, shelveReason: 'node being serviced' }),
+    shelvedAckedCleared: make({ state: 'shelved', active: false, clearedAt: T0 + 2 * MIN, ackedAt: T0 + MIN, ackedBy: 'sam', shelvedUntil: now, shelveReason: 'r' }),
+    shelvedUnackedCleared: make({ state: 'shelved', active: false, clearedAt: T0 + 2 * MIN, shelvedUntil: now, shelveReason: 'r' }),
+    shelvedLatchedCleared: make({ state: 'shelved', latched: true, active: false, clearedAt: T0 + 2 * MIN, shelvedUntil: now, shelveReason: 'r' }),
+    outOfService: make({ state: 'out-of-service' }),
+    outOfServiceCleared: make({ state: 'out-of-service', active: false, clearedAt: T0 + MIN }),
+  } satisfies Record<string, AlarmRecord>;
+}
+
+/** Every lifecycle event once, a shelve lasting an hour from `now`. */
+export function lifecycleEvents(now: number) {
+  return {
+    active: { kind: 'condition-active' },
+    clear: { kind: 'condition-clear' },
+    ack: { kind: 'acknowledge', actor: 'sam', note: 'checked' },
+    shelve: { kind: 'shelve', actor: 'sam', until: now + HOUR, reason: 'heater being fitted' },
+    unshelve: { kind: 'unshelve', actor: 'sam' },
+    expiry: { kind: 'shelve-expiry' },
+    remove: { kind: 'remove-from-service' },
+    back: { kind: 'return-to-service' },
+  } satisfies Record<string, LifecycleEvent>;
 }

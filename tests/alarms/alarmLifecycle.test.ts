@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import type { LifecycleEvent } from '../../src/alarms/alarmLifecycle.js';
 import { applyAlarmEvent } from '../../src/alarms/alarmLifecycle.js';
 import type { AlarmRecord } from '../../src/alarms/alarmTypes.js';
-import { HOUR, MIN, T0, alarmRecord } from './alarmFixtures.js';
+import { MIN, T0, lifecycleEvents, lifecycleStarts } from './alarmFixtures.js';
 
 /*
  * Transition table checked against the alarm state transition diagram of
@@ -24,31 +24,8 @@ import { HOUR, MIN, T0, alarmRecord } from './alarmFixtures.js';
 
 const now = T0 + 10 * MIN;
 
-const start = {
-  normal: alarmRecord({ state: 'normal', active: false, clearedAt: T0 - HOUR, ackedAt: T0 - HOUR, closedAt: T0 - HOUR }),
-  unackActive: alarmRecord(),
-  unackLatched: alarmRecord({ latched: true }),
-  latchedCleared: alarmRecord({ latched: true, active: false, clearedAt: T0 + MIN }),
-  acked: alarmRecord({ state: 'acknowledged', ackedAt: T0 + MIN, ackedBy: 'sam', note: 'on my way' }),
-  returned: alarmRecord({ state: 'returned-unacknowledged', active: false, clearedAt: T0 + MIN }),
-  shelvedActive: alarmRecord({ state: 'shelved', shelvedUntil: now, shelveReason: 'node being serviced' }),
-  shelvedAckedCleared: alarmRecord({ state: 'shelved', active: false, clearedAt: T0 + 2 * MIN, ackedAt: T0 + MIN, ackedBy: 'sam', shelvedUntil: now, shelveReason: 'r' }),
-  shelvedUnackedCleared: alarmRecord({ state: 'shelved', active: false, clearedAt: T0 + 2 * MIN, shelvedUntil: now, shelveReason: 'r' }),
-  shelvedLatchedCleared: alarmRecord({ state: 'shelved', latched: true, active: false, clearedAt: T0 + 2 * MIN, shelvedUntil: now, shelveReason: 'r' }),
-  outOfService: alarmRecord({ state: 'out-of-service' }),
-  outOfServiceCleared: alarmRecord({ state: 'out-of-service', active: false, clearedAt: T0 + MIN }),
-} satisfies Record<string, AlarmRecord>;
-
-const ev = {
-  active: { kind: 'condition-active' },
-  clear: { kind: 'condition-clear' },
-  ack: { kind: 'acknowledge', actor: 'sam', note: 'checked' },
-  shelve: { kind: 'shelve', actor: 'sam', until: now + HOUR, reason: 'heater being fitted' },
-  unshelve: { kind: 'unshelve', actor: 'sam' },
-  expiry: { kind: 'shelve-expiry' },
-  remove: { kind: 'remove-from-service' },
-  back: { kind: 'return-to-service' },
-} satisfies Record<string, LifecycleEvent>;
+const start = lifecycleStarts(now);
+const ev = lifecycleEvents(now);
 
 type Row = [from: keyof typeof start, event: keyof typeof ev, to: AlarmRecord['state'], active: boolean, closed: boolean, origin: 'isa' | 'ours'];
 

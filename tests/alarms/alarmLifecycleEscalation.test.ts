@@ -1,8 +1,8 @@
 import { describe, expect, it } from 'vitest';
-import type { EscalationDirective, LifecycleEvent } from '../../src/alarms/alarmLifecycle.js';
+import type { EscalationDirective } from '../../src/alarms/alarmLifecycle.js';
 import { applyAlarmEvent } from '../../src/alarms/alarmLifecycle.js';
 import type { AlarmRecord, NoticeKind } from '../../src/alarms/alarmTypes.js';
-import { HOUR, MIN, T0, alarmRecord } from './alarmFixtures.js';
+import { MIN, T0, alarmRecord, lifecycleEvents, lifecycleStarts } from './alarmFixtures.js';
 
 /*
  * What each transition means for the people on the escalation list (pairwatch's own rules, README
@@ -17,31 +17,8 @@ const now = T0 + 10 * MIN;
 const pending = { stepsDone: 1, repeatsDone: 0, nextAt: T0 + 20 * MIN, notified: ['office'] };
 const row = (overrides: Partial<AlarmRecord>): AlarmRecord => alarmRecord({ escalation: pending, ...overrides });
 
-const start = {
-  normal: row({ state: 'normal', active: false, clearedAt: T0 - HOUR, ackedAt: T0 - HOUR, closedAt: T0 - HOUR }),
-  unackActive: row({}),
-  unackLatched: row({ latched: true }),
-  latchedCleared: row({ latched: true, active: false, clearedAt: T0 + MIN }),
-  acked: row({ state: 'acknowledged', ackedAt: T0 + MIN, ackedBy: 'sam' }),
-  returned: row({ state: 'returned-unacknowledged', active: false, clearedAt: T0 + MIN }),
-  shelvedActive: row({ state: 'shelved', shelvedUntil: now, shelveReason: 'node being serviced' }),
-  shelvedAckedCleared: row({ state: 'shelved', active: false, clearedAt: T0 + 2 * MIN, ackedAt: T0 + MIN, ackedBy: 'sam', shelvedUntil: now, shelveReason: 'r' }),
-  shelvedUnackedCleared: row({ state: 'shelved', active: false, clearedAt: T0 + 2 * MIN, shelvedUntil: now, shelveReason: 'r' }),
-  shelvedLatchedCleared: row({ state: 'shelved', latched: true, active: false, clearedAt: T0 + 2 * MIN, shelvedUntil: now, shelveReason: 'r' }),
-  outOfService: row({ state: 'out-of-service' }),
-  outOfServiceCleared: row({ state: 'out-of-service', active: false, clearedAt: T0 + MIN }),
-} satisfies Record<string, AlarmRecord>;
-
-const ev = {
-  active: { kind: 'condition-active' },
-  clear: { kind: 'condition-clear' },
-  ack: { kind: 'acknowledge', actor: 'sam', note: 'checked' },
-  shelve: { kind: 'shelve', actor: 'sam', until: now + HOUR, reason: 'heater being fitted' },
-  unshelve: { kind: 'unshelve', actor: 'sam' },
-  expiry: { kind: 'shelve-expiry' },
-  remove: { kind: 'remove-from-service' },
-  back: { kind: 'return-to-service' },
-} satisfies Record<string, LifecycleEvent>;
+const start = lifecycleStarts(now, row);
+const ev = lifecycleEvents(now);
 
 type Row = [from: keyof typeof start, event: keyof typeof ev, escalation: EscalationDirective, notice: NoticeKind | null];
 
