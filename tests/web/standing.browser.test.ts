@@ -61,6 +61,17 @@ interface Look {
 }
 
 async function lookOf(page: Page, selector: string): Promise<Look> {
+  // The live board may swap its cards in just as we read one: a card read while detached has no computed
+  // style at all (every field empty). Read again until the card is in the document; never a timing check.
+  for (let attempt = 0; ; attempt++) {
+    const look = await readLook(page, selector);
+    if (look.border.trim() !== '' || attempt >= 40) return look;
+    await page.waitForTimeout(50);
+  }
+}
+
+async function readLook(page: Page, selector: string): Promise<Look> {
+  await page.waitForSelector(selector, { state: 'attached' });
   return page.$eval(selector, (el) => {
     const style = getComputedStyle(el);
     const svg = el.querySelector('svg.shape')!;
