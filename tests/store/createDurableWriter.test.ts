@@ -8,7 +8,7 @@ import type { EdgeRow } from '../../src/store/edgeRepo.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
 import type { StorageFailure } from '../../src/store/createDurableWriter.js';
 import { makeTempDir } from '../helpers/tempDir.js';
-import { T0 } from './storeTestKit.js';
+import { storeOnFillingDisk, T0 } from './storeTestKit.js';
 import { skipForMachine } from '../helpers/machineSkip.js';
 
 /** Records every callback, with a fake clock the test moves by hand. */
@@ -40,14 +40,7 @@ describe('createDurableWriter: queue rules (storage errors injected at the trans
     tmp = makeTempDir('pw-store-');
     real = openStore({ path: join(tmp.dir, 'pw.db') });
     diskFull = false;
-    // The error SQLite reports for a full disk (extended result code name as better-sqlite3 sets it).
-    flaky = {
-      ...real,
-      transaction: (fn) => {
-        if (diskFull) throw Object.assign(new Error('database or disk is full'), { code: 'SQLITE_FULL' });
-        return real.transaction(fn);
-      },
-    };
+    flaky = storeOnFillingDisk(real, () => diskFull);
   });
   afterEach(() => {
     real.close();

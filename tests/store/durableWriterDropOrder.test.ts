@@ -3,7 +3,7 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { createDurableWriter } from '../../src/store/createDurableWriter.js';
 import { openStore, type Store } from '../../src/store/openStore.js';
 import { makeTempDir } from '../helpers/tempDir.js';
-import { T0 } from './storeTestKit.js';
+import { storeOnFillingDisk, T0 } from './storeTestKit.js';
 
 /**
  * When the in-memory queue is full the OLDEST droppable batches go first: the newest raw edges are the
@@ -19,13 +19,7 @@ describe('createDurableWriter: which droppable batches survive a full queue', ()
     tmp = makeTempDir('pw-drop-');
     real = openStore({ path: join(tmp.dir, 'pw.db') });
     diskFull = true;
-    flaky = {
-      ...real,
-      transaction: (fn) => {
-        if (diskFull) throw Object.assign(new Error('database or disk is full'), { code: 'SQLITE_FULL' });
-        return real.transaction(fn);
-      },
-    };
+    flaky = storeOnFillingDisk(real, () => diskFull);
   });
   afterEach(() => {
     real.close();

@@ -1,3 +1,4 @@
+import type { Store } from '../../src/store/openStore.js';
 import type Database from 'better-sqlite3';
 import type { AlarmRecord } from '../../src/alarms/alarmTypes.js';
 import { sampleAlarm } from '../helpers/sampleAlarm.js';
@@ -26,4 +27,18 @@ export function makeAlarm(overrides: Partial<AlarmRecord> = {}): AlarmRecord {
     escalation: { stepsDone: 1, repeatsDone: 0, nextAt: T0 + 20 * 60_000, notified: ['office'] },
     ...overrides,
   });
+}
+
+/**
+ * The store as seen through a disk that fills: while `isFull()` every transaction fails with the error
+ * SQLite reports for a full disk (SQLITE_FULL, the extended result code name better-sqlite3 sets).
+ */
+export function storeOnFillingDisk(real: Store, isFull: () => boolean): Store {
+  return {
+    ...real,
+    transaction: (fn) => {
+      if (isFull()) throw Object.assign(new Error('database or disk is full'), { code: 'SQLITE_FULL' });
+      return real.transaction(fn);
+    },
+  };
 }
