@@ -2,7 +2,7 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { CONDITION_TEXT } from '../../src/model/condition.js';
 import { escapeHtml } from '../../src/web/pages/html.js';
 import { startBoardSite, type RealTestWeb } from './fixtures/realSite.js';
-import { session, type Session } from './fixtures/testWeb.js';
+import { pageCalls, session, type Session } from './fixtures/testWeb.js';
 
 /*
  * The pages over the real monitor core (realSite.ts): the board and the alarm page show what the
@@ -20,14 +20,7 @@ afterEach(async () => {
   await web.close();
 });
 
-const page = (url: string, s: Session = otto) => web.app.inject({ method: 'GET', url, headers: { cookie: s.cookie } });
-const postForm = (url: string, fields: Record<string, string>, s: Session = otto) =>
-  web.app.inject({
-    method: 'POST',
-    url,
-    headers: { cookie: s.cookie, 'content-type': 'application/x-www-form-urlencoded' },
-    payload: new URLSearchParams({ csrf: s.csrf, ...fields }).toString(),
-  });
+const { page, postForm } = pageCalls(() => web, () => otto);
 const seedStoreAlarmId = () => web.site.core.openAlarms().find((a) => a.loopId === 'seed-store' && a.condition === 'tripped')!.id;
 
 describe('the board over the real engine', () => {

@@ -1,7 +1,7 @@
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { CONDITION_TEXT } from '../../src/model/condition.js';
 import { escapeHtml } from '../../src/web/pages/html.js';
-import { session, startTestWeb, type Session, type TestWeb } from './fixtures/testWeb.js';
+import { pageCalls, session, startTestWeb, type Session, type TestWeb } from './fixtures/testWeb.js';
 
 let web: TestWeb;
 let otto: Session;
@@ -13,14 +13,7 @@ afterEach(async () => {
   await web.close();
 });
 
-const page = (url: string, s: Session = otto) => web.app.inject({ method: 'GET', url, headers: { cookie: s.cookie } });
-const postForm = (url: string, fields: Record<string, string>, s: Session = otto) =>
-  web.app.inject({
-    method: 'POST',
-    url,
-    headers: { cookie: s.cookie, 'content-type': 'application/x-www-form-urlencoded' },
-    payload: new URLSearchParams({ csrf: s.csrf, ...fields }).toString(),
-  });
+const { page, postForm } = pageCalls(() => web, () => otto);
 
 describe('the board', () => {
   it('lists every loop: alarms first, then trouble, then healthy, each with state words and a shape', async () => {
