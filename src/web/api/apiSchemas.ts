@@ -24,11 +24,14 @@ function freeText(typeError: string) {
   return z
     .string({ error: typeError })
     .max(NOTE_MAX, `must be at most ${NOTE_MAX} characters`)
-    .overwrite((text) => foldFreeText(text).trim())
+    .overwrite(foldFreeText)
+    // Checked before the trim: String.prototype.trim also removes control characters (VT, FF), and the
+    // rule is that those are refused with a reason, never silently cut.
     .check((ctx) => {
       const problem = freeTextProblem(ctx.value);
       if (problem) ctx.issues.push({ code: 'custom', message: problem, input: ctx.value });
-    });
+    })
+    .overwrite((text) => text.trim());
 }
 
 const optionalNote = freeText('must be text').optional().describe('Free text kept in the audit trail; line breaks become spaces, control characters are refused');

@@ -25,10 +25,12 @@ export function requiredFormField(body: Record<string, unknown>, name: string, m
 export function freeTextField(body: Record<string, unknown>, name: string, maxLength = 1000): string | undefined {
   const raw = formField(body, name, maxLength);
   if (raw === undefined) return undefined;
-  const folded = foldFreeText(raw).trim();
+  const folded = foldFreeText(raw);
+  // Checked before the trim, which would silently cut VT and FF: control characters are refused, not cut.
   const problem = freeTextProblem(folded);
   if (problem) throw badInput(name, problem);
-  return folded === '' ? undefined : folded;
+  const trimmed = folded.trim();
+  return trimmed === '' ? undefined : trimmed;
 }
 
 export function requiredFreeTextField(body: Record<string, unknown>, name: string, maxLength = 1000): string {

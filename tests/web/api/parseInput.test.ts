@@ -40,3 +40,18 @@ describe('parseInput with an empty query', () => {
     expect(parseInput(alarmsQuerySchema, {}, 'query')).toEqual({ status: 'active' });
   });
 });
+
+describe('free text: control characters that trim() would cut are refused, not cut (src/web/http/freeText.ts)', () => {
+  // VT (U+000B) and FF (U+000C) are Unicode category Cc and also JavaScript white space (ECMA-262, WhiteSpace).
+  it('in an API note and in a form reason', async () => {
+    const { ackBodySchema } = await import('../../../src/web/api/apiSchemas.js');
+    const { freeTextField } = await import('../../../src/web/http/formFields.js');
+    for (const text of ['\u000b', '\u000c', 'on my way\u000b', '\u000c ok']) {
+      expect(statusOf(() => parseInput(ackBodySchema, { note: text }, 'body'))).toBe(400);
+      expect(statusOf(() => freeTextField({ reason: text }, 'reason'))).toBe(400);
+    }
+    // Line breaks and tabs are folded to spaces and the ends trimmed, as before.
+    expect(parseInput(ackBodySchema, { note: '  on my way\n ' }, 'body')).toEqual({ note: 'on my way' });
+    expect(freeTextField({ reason: ' \t heater being fitted\r\n' }, 'reason')).toBe('heater being fitted');
+  });
+});
