@@ -10,6 +10,11 @@ export interface SmtpSink {
   logins: string[];
   /** Whether each message came over TLS (after STARTTLS). */
   overTls: boolean[];
+  /**
+   * Errors of single client connections (a sender killed with -9 mid-session resets its socket).
+   * smtp-server re-emits them on the server, where an unheard 'error' would crash the test process.
+   */
+  connectionErrors: Error[];
   close(): Promise<void>;
 }
 
@@ -41,6 +46,7 @@ export async function startSmtpSink(options: SmtpSinkOptions = {}): Promise<Smtp
   const envelopes: string[][] = [];
   const logins: string[] = [];
   const overTls: boolean[] = [];
+  const connectionErrors: Error[] = [];
   const server = new SMTPServer({
     authOptional: !authRequired,
     allowInsecureAuth: !options.starttls,
@@ -76,6 +82,7 @@ export async function startSmtpSink(options: SmtpSinkOptions = {}): Promise<Smtp
     server.once('error', reject);
     server.listen(options.port ?? 0, '127.0.0.1', () => resolve());
   });
+  server.on('error', (err: Error) => connectionErrors.push(err));
   const port = (server.server.address() as AddressInfo).port;
   return {
     port,
@@ -83,6 +90,7 @@ export async function startSmtpSink(options: SmtpSinkOptions = {}): Promise<Smtp
     envelopes,
     logins,
     overTls,
+    connectionErrors,
     close: () => new Promise<void>((resolve) => server.close(() => resolve())),
   };
 }
