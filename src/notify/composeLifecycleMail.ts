@@ -1,5 +1,5 @@
 import { countOf } from '../model/plural.js';
-import { escapeHtml } from './escapeHtml.js';
+import { escapeHtml } from './mailLayout.js';
 import { formatSiteAndUtc } from './formatSiteTime.js';
 import { mailFooterHtml, mailFooterText, mailPageHtml, PRIORITY_TAG } from './mailLayout.js';
 import type { MailEnvelope, OutboxMessage } from '../model/outboxMessage.js';
