@@ -48,8 +48,10 @@ export async function run(opts: BenchOptions): Promise<BenchResult> {
       ];
   const rows: BenchRow[] = [];
   const notes: string[] = [];
-  for (const variant of variants) {
-    const outcome = await soakService(durationMs, variant.flags);
+  // The variants run side by side (each its own child, pty and database): CPU figures are per child.
+  const outcomes = await Promise.all(variants.map((variant) => soakService(durationMs, variant.flags)));
+  for (const [i, variant] of variants.entries()) {
+    const outcome = outcomes[i]!;
     const days = durationMs / DAY_MS;
     const growth = outcome.rssEndMb - outcome.rssDay1Mb;
     rows.push(
