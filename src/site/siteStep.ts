@@ -194,8 +194,17 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
       let decoder = decoders[input.decoderId];
       if (!decoder) break;
       const stepped = stepDecoderSession(decoder.session, input.line);
-      // One private copy per line, updated in place below and handed back (as stepLoop does).
-      decoder = { ...decoder, session: stepped.session };
+      // One private copy per line, updated in place below and handed back (as stepLoop does); field by
+      // field, as the session's own copy, because it is on every line.
+      decoder = {
+        id: decoder.id,
+        session: stepped.session,
+        lastValidAtMs: decoder.lastValidAtMs,
+        latestDecoderUs: decoder.latestDecoderUs,
+        latestHostMs: decoder.latestHostMs,
+        hostLagMs: decoder.hostLagMs,
+        offline: decoder.offline,
+      };
       const frameUs = stepped.events.some((e) => 'decoderUs' in e) ? stepped.session.lastDecoderUs : null;
       if (frameUs !== null) {
         const lagMs = nowMs - frameUs / 1000;
@@ -214,7 +223,7 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
           decoders[input.decoderId] = decoder;
           break;
         }
-        decoder = { ...decoder, hostLagMs: floorMs === null ? lagMs : Math.min(lagMs, floorMs) };
+        decoder.hostLagMs = floorMs === null ? lagMs : Math.min(lagMs, floorMs);
       }
       for (const event of stepped.events) {
         if (event.kind === 'dropped') {
