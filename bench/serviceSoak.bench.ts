@@ -166,6 +166,7 @@ export async function soakService(durationMs: number, flags: string[]): Promise<
       }
     }
     await ask({ kind: 'advance', to: START_MS + durationMs + STEP_MS, linesWritten: lines });
+    if (durationMs % DAY_MS !== 0) acked += await acknowledgeAll(ask, operator);
     const end = await memory(true);
     const wallS = (performance.now() - wallBefore) / 1000;
     await ask({ kind: 'stop' });
@@ -219,13 +220,15 @@ function askChild(child: ChildProcess, stderr: () => string): Ask {
 /** The midnight round: every alarm still waiting for someone is acknowledged through the REST API. */
 async function acknowledgeAll(ask: Ask, token: string): Promise<number> {
   const reply = await ask({ kind: 'get', path: '/api/v1/alarms?status=active', token });
-  if (reply.kind !== 'response' || reply.status !== 200) return 0;
+  if (reply.kind !== 'response' || reply.status !== 200) throw new BenchError('PW_BENCH_API', `GET /api/v1/alarms?status=active answered ${reply.kind === 'response' ? `${reply.status}: ${reply.body.slice(0, 200)}` : reply.kind}`);
   const listed = JSON.parse(reply.body) as Array<{ id: number; state: string }>;
+  if (process.env.PW_BENCH_TRACE_MEMORY) process.stderr.write(`midnight round: ${listed.map((a) => `#${a.id} ${a.state}`).join(', ') || 'no alarms listed'}\n`);
   let acked = 0;
   for (const alarm of listed) {
     if (alarm.state !== 'unacknowledged' && alarm.state !== 'returned-unacknowledged') continue;
     const ack = await ask({ kind: 'post', path: `/api/v1/alarms/${alarm.id}/ack`, token, body: { note: 'midnight round' } });
-    if (ack.kind === 'response' && ack.status < 300) acked += 1;
+    if (ack.kind !== 'response' || ack.status !== 200) throw new BenchError('PW_BENCH_API', `acknowledging alarm ${alarm.id} answered ${ack.kind === 'response' ? `${ack.status}: ${ack.body.slice(0, 200)}` : ack.kind}`);
+    acked += 1;
   }
   return acked;
 }

@@ -10,7 +10,7 @@ export function grantApiToken(dbPath: string, now: number, role: UserRole = 'vie
   const token = newApiToken();
   const store = openStore({ path: dbPath });
   try {
-    insertApiToken(store.db, { name: 'bench', tokenHash: sha256Hex(token), role, createdAt: now });
+    insertApiToken(store.db, { name: `bench-${role}`, tokenHash: sha256Hex(token), role, createdAt: now });
   } finally {
     store.close();
   }
