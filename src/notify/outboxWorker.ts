@@ -222,11 +222,12 @@ export function createOutboxWorker(options: OutboxWorkerOptions): OutboxWorker {
 }
 
 /**
- * A reminder (repeat or escalation mail) is obsolete once none of its alarms still waits for an
+ * A reminder (repeat or escalation mail; the caller checks it is one) is obsolete once none of its alarms still waits for an
  * acknowledgement: the engine escalates exactly while an alarm is 'unacknowledged' (active, or latched
  * and cleared), so a reminder about alarms all acknowledged, returned unacknowledged, shelved, out of
  * service or closed would ask for something nobody needs to do any more.
  */
-export function isObsoleteReminder(row: Pick<OutboxRow, 'reminder' | 'alarmIds'>, alarms: ReadonlyArray<Pick<NoticeAlarm, 'state'>>): boolean {
-  return row.reminder && row.alarmIds.length > 0 && !alarms.some((a) => a.state === 'unacknowledged');
+function isObsoleteReminder(row: Pick<OutboxRow, 'alarmIds'>, alarms: ReadonlyArray<Pick<NoticeAlarm, 'state'>>): boolean {
+  // A mail about no alarm (the estate's notices) has nothing to go by, so it is never obsolete.
+  return row.alarmIds.length > 0 && !alarms.some((a) => a.state === 'unacknowledged');
 }

@@ -7,7 +7,7 @@ import { createSmtpTransport, type MailSendResult, type MailTransport } from '..
 import { queueNotices } from '../../src/notify/noticeQueue.js';
 import { createOutboxWorker, type OutboxWorkerOptions } from '../../src/notify/outboxWorker.js';
 import { silentLogger } from '../../src/notify/notifyLogger.js';
-import { getOutboxRowByMessageId, type OutboxRow } from '../../src/store/outboxRepo.js';
+import { enqueueOutbox, getOutboxRowByMessageId, type OutboxRow } from '../../src/store/outboxRepo.js';
 import { freePort } from '../helpers/freePort.js';
 import { startSmtpSink, type SmtpSink } from '../helpers/smtpSink.js';
 import { settings } from './helpers/fixtures.js';
@@ -147,7 +147,13 @@ describe('outbox backlog after an outage (issue 16 item 4)', () => {
       repeatAboutWaiting: queueMail(t.db, 'office', t0, 'repeat', waiting),
       repeatAboutLatchedGone: queueMail(t.db, 'office', t0, 'repeat', latchedGone),
       repeatAboutReturned: queueMail(t.db, 'vet', t0, 'repeat', returned),
+      // As the estate board queues its reminders: about alarms kept in memory, so about no alarm row.
+      reminderAboutNoAlarm: '<estate-reminder@pairwatch.ridgeway.example>',
     };
+    enqueueOutbox(t.db, {
+      messageId: mails.reminderAboutNoAlarm, kind: 'notice', priority: 'alarm', from: 'pairwatch <monitor@ridgeway.example>', to: ['office@ridgeway.example'],
+      subject: 'Estate: Ridgeway Farm — tripped, not acknowledged', text: 'Still not acknowledged.', html: '<p>Still not acknowledged.</p>', headers: {}, alarmIds: [], reminder: true,
+    }, t0);
     expect(await w.runOnce()).toMatchObject({ sent: 0, failed: 1 });
     // Meanwhile, from the board: one acknowledged; one latched alarm cleared (still escalating until
     // acknowledged); one non-latched alarm back to normal (returned-unacknowledged: no more reminders).
@@ -159,8 +165,8 @@ describe('outbox backlog after an outage (issue 16 item 4)', () => {
     const sink = await startSmtpSink({ port });
     sinks.push(sink);
     clock.now = t0 + 90_000;
-    expect(await w.runOnce()).toEqual({ sent: 3, failed: 0, deferred: 0, dropped: 3 });
-    expect(sink.messages.map((m) => m.messageId)).toEqual([mails.raisedAboutAcked, mails.repeatAboutWaiting, mails.repeatAboutLatchedGone]);
+    expect(await w.runOnce()).toEqual({ sent: 4, failed: 0, deferred: 0, dropped: 3 });
+    expect(sink.messages.map((m) => m.messageId)).toEqual([mails.raisedAboutAcked, mails.repeatAboutWaiting, mails.repeatAboutLatchedGone, mails.reminderAboutNoAlarm]);
     for (const id of [mails.repeatAboutAcked, mails.escalationAboutAcked, mails.repeatAboutReturned]) {
       expect(getOutboxRowByMessageId(t.db, id)).toMatchObject({ status: 'dropped', reminder: true });
     }
