@@ -77,11 +77,13 @@ function statements(db: Database): OutboxStatements {
       // held back by a link failure, so each person reads their mail in the order it was raised ("back
       // to normal" never before its alarm). A row the server refused holds nothing back: it may never go.
       // Mailboxes compare as written in recipients_json, which is how one contact is always written.
+      // held: per mailbox, the first row a link failure holds back (computed once per query, not per row).
       due: db.prepare(
-        `SELECT * FROM outbox o WHERE o.status = 'pending' AND o.next_attempt_at <= @now
-           AND NOT EXISTS (
-             SELECT 1 FROM outbox e WHERE e.status = 'pending' AND e.id < o.id AND e.refused = 0 AND e.next_attempt_at > @now
-               AND EXISTS (SELECT 1 FROM json_each(e.recipients_json) a, json_each(o.recipients_json) b WHERE a.value = b.value))
+        `WITH held AS MATERIALIZED (
+           SELECT m.value AS mailbox, MIN(e.id) AS first_id FROM outbox e, json_each(e.recipients_json) m
+           WHERE e.status = 'pending' AND e.refused = 0 AND e.next_attempt_at > @now GROUP BY m.value)
+         SELECT o.* FROM outbox o WHERE o.status = 'pending' AND o.next_attempt_at <= @now
+           AND NOT EXISTS (SELECT 1 FROM json_each(o.recipients_json) r JOIN held h ON h.mailbox = r.value WHERE h.first_id < o.id)
          ORDER BY o.id LIMIT @limit`,
       ),
       markSent: db.prepare(
