@@ -54,7 +54,7 @@ export interface RunResult {
  * One connection attempt per 30 s is no load on a server; a message the server refuses still backs
  * off to retry_max.
  */
-export const LINK_RETRY_MAX_MS = 30_000;
+const LINK_RETRY_MAX_MS = 30_000;
 /** Batches one runOnce may work through while mail flows, so a large backlog drains in one run but a run still ends. */
 const MAX_BATCHES_PER_RUN = 20;
 
@@ -222,10 +222,10 @@ export function createOutboxWorker(options: OutboxWorkerOptions): OutboxWorker {
 }
 
 /**
- * A reminder (repeat or escalation mail; the caller checks it is one) is obsolete once none of its alarms still waits for an
- * acknowledgement: the engine escalates exactly while an alarm is 'unacknowledged' (active, or latched
- * and cleared), so a reminder about alarms all acknowledged, returned unacknowledged, shelved, out of
- * service or closed would ask for something nobody needs to do any more.
+ * A reminder (repeat or escalation mail; the caller checks it is one) is obsolete once none of its
+ * alarms still waits for an acknowledgement: the engine escalates exactly while an alarm is
+ * 'unacknowledged' (active, or latched and cleared), so a reminder about alarms all acknowledged,
+ * returned unacknowledged, shelved, out of service or closed asks for something nobody needs to do.
  */
 function isObsoleteReminder(row: Pick<OutboxRow, 'alarmIds'>, alarms: ReadonlyArray<Pick<NoticeAlarm, 'state'>>): boolean {
   // A mail about no alarm (the estate's notices) has nothing to go by, so it is never obsolete.
