@@ -51,7 +51,7 @@ export type NoticeKind = (typeof NOTICE_KINDS)[number];
 /** Audit actions, one row each (who, when, note). */
 export const AUDIT_ACTIONS = [
   'raise', 'clear', 'acknowledge', 'shelve', 'unshelve', 'shelve-expired', 'out-of-service', 'return-to-service',
-  'escalation-step', 'repeat', 'mail-sent', 'mail-failed', 'close', 'mail-reply',
+  'escalation-step', 'repeat', 'mail-sent', 'mail-failed', 'close', 'mail-reply', 'mail-dropped',
 ] as const;
 export type AuditAction = (typeof AUDIT_ACTIONS)[number];
 

@@ -7,6 +7,9 @@ import type { LoopState } from '../model/loopState.js';
 import type { DurableWriter } from '../store/createDurableWriter.js';
 import type { Store } from '../store/openStore.js';
 import { recipientsOf } from '../store/alarmRepo.js';
+import { outboxBacklog } from '../store/outboxRepo.js';
+import { countOf } from '../model/plural.js';
+import { formatElapsed } from '../notify/formatSiteTime.js';
 import type {
   AlarmDetailView,
   AlarmView,
@@ -232,12 +235,32 @@ export function createReadModel(options: ReadModelOptions): WebReadModel {
       const trouble = core.openAlarms().find((a) => a.source === 'system' && a.active && (a.condition === 'storage-damaged' || a.condition === 'storage-failing'));
       const storageTrouble = trouble ? CONDITION_TEXT[trouble.condition].words : null;
       const mailFailing = options.mailFailing();
+      const mailLate = mailWaiting(store, config.mail.group_window, options.now());
       const checks: HealthView['checks'] = [
         { name: 'ingest', ok: offline.length === 0, reason: offline.length ? `decoder ${offline.map((d) => d.id).join(', ')} not connected or silent` : null },
         { name: 'store', ok: failing === null && storageTrouble === null, reason: failing ? `storage failing: ${failing.kind} (${failing.sqliteCode})` : storageTrouble },
-        { name: 'mail', ok: !mailFailing, reason: mailFailing ? 'mail failing: messages are waiting in the outbox' : null },
+        { name: 'mail', ok: !mailFailing && mailLate === null, reason: mailFailing ? `mail failing: ${mailLate ?? 'messages are waiting in the outbox'}` : mailLate },
       ];
       return { ok: checks.every((c) => c.ok), checks };
     },
   };
+}
+
+/**
+ * Mail is healthy only while nothing in the outbox has waited longer than the grouping window (issue 16
+ * item 4): a backlog that is still draining, or a message the server keeps refusing, is not healthy
+ * even before "mail failing" is raised. Returns the reason, or null when nothing is late.
+ */
+function mailWaiting(store: Store, groupWindowMs: number, now: number): string | null {
+  let backlog: ReturnType<typeof outboxBacklog>;
+  try {
+    backlog = outboxBacklog(store.db);
+  } catch {
+    // The store check says why; mail that cannot be looked at is not known to be flowing.
+    return 'cannot read the outbox';
+  }
+  if (backlog.oldestCreatedAt === null) return null;
+  const waitedMs = now - backlog.oldestCreatedAt;
+  if (waitedMs <= groupWindowMs) return null;
+  return `${countOf(backlog.pending, 'message')} waiting, the oldest for ${formatElapsed(waitedMs)}`;
 }

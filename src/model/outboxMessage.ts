@@ -23,6 +23,12 @@ export interface OutboxMessage {
   headers: Record<string, string>;
   /** Alarms this mail is about; audit rows for sending go against each. */
   alarmIds: number[];
+  /**
+   * The mail only repeats or escalates what was already said (repeat and escalation notices). Such a
+   * mail is obsolete, and dropped unsent with an audit row, once none of its alarms still waits for an
+   * acknowledgement. Default false.
+   */
+  reminder?: boolean;
 }
 
 /** Who a non-notice mail (report, lifecycle, test) goes from and to, and where its Message-ID comes from. */

@@ -292,5 +292,7 @@ export function composeNoticeMail(digest: Digest, ctx: NoticeComposeContext): Ou
     html: mailPageHtml(subject, htmlParts.join('\n')),
     headers,
     alarmIds: entries.map((e) => e.alarmId),
+    // Only a repeat or an escalation: says nothing new, so the outbox may drop it once it is obsolete.
+    reminder: digest.notices.length > 0 && digest.notices.every((n) => n.kind === 'repeat' || n.kind === 'escalated'),
   };
 }

@@ -7,11 +7,15 @@ import type { OutboxKind, OutboxMessage } from '../model/outboxMessage.js';
 export interface OutboxRow extends OutboxMessage {
   id: number;
   createdAt: number;
-  status: 'pending' | 'sent';
+  /** 'dropped': a reminder made obsolete before it could go (audited as mail-dropped); kept, never deleted. */
+  status: 'pending' | 'sent' | 'dropped';
   attempts: number;
   nextAttemptAt: number;
   lastError: string | null;
   sentAt: number | null;
+  reminder: boolean;
+  /** The server refused this message on its last attempt: it backs off on its own and holds no other mail back. */
+  refused: boolean;
 }
 
 interface OutboxColumns {
@@ -31,6 +35,8 @@ interface OutboxColumns {
   next_attempt_at: string;
   last_error: string | null;
   sent_at: string | null;
+  reminder: number;
+  refused: number;
 }
 
 // The schema has no sender column; the From address travels inside headers_json under this key.
@@ -50,6 +56,8 @@ interface OutboxStatements {
   nextDue: Statement;
   pendingCount: Statement;
   audit: Statement;
+  release: Statement;
+  markDropped: Statement;
 }
 const cache = new WeakMap<Database, OutboxStatements>();
 
@@ -59,20 +67,30 @@ function statements(db: Database): OutboxStatements {
     s = {
       insert: db.prepare(
         `INSERT INTO outbox (message_id, kind, priority, recipients_json, subject, text_body, html_body, headers_json,
-           alarm_ids_json, created_at, status, attempts, next_attempt_at)
+           alarm_ids_json, created_at, status, attempts, next_attempt_at, reminder)
          VALUES (@messageId, @kind, @priority, @recipients, @subject, @text, @html, @headers, @alarmIds, @createdAt,
-           'pending', 0, @createdAt)`,
+           'pending', 0, @createdAt, @reminder)`,
       ),
       byMessageId: db.prepare('SELECT * FROM outbox WHERE message_id = ?'),
       byId: db.prepare('SELECT * FROM outbox WHERE id = ?'),
+      // In the order queued; a row never goes past an earlier row to one of its mailboxes that is still
+      // held back by a link failure, so each person reads their mail in the order it was raised ("back
+      // to normal" never before its alarm). A row the server refused holds nothing back: it may never go.
+      // Mailboxes compare as written in recipients_json, which is how one contact is always written.
+      // held: per mailbox, the first row a link failure holds back (computed once per query, not per row).
       due: db.prepare(
-        `SELECT * FROM outbox WHERE status = 'pending' AND next_attempt_at <= ? ORDER BY next_attempt_at, id LIMIT ?`,
+        `WITH held AS MATERIALIZED (
+           SELECT m.value AS mailbox, MIN(e.id) AS first_id FROM outbox e, json_each(e.recipients_json) m
+           WHERE e.status = 'pending' AND e.refused = 0 AND e.next_attempt_at > @now GROUP BY m.value)
+         SELECT o.* FROM outbox o WHERE o.status = 'pending' AND o.next_attempt_at <= @now
+           AND NOT EXISTS (SELECT 1 FROM json_each(o.recipients_json) r JOIN held h ON h.mailbox = r.value WHERE h.first_id < o.id)
+         ORDER BY o.id LIMIT @limit`,
       ),
       markSent: db.prepare(
-        `UPDATE outbox SET status = 'sent', sent_at = ?, attempts = attempts + 1, last_error = NULL WHERE id = ? AND status = 'pending'`,
+        `UPDATE outbox SET status = 'sent', sent_at = ?, attempts = attempts + 1, last_error = NULL, refused = 0 WHERE id = ? AND status = 'pending'`,
       ),
       markFailed: db.prepare(
-        `UPDATE outbox SET attempts = attempts + 1, next_attempt_at = ?, last_error = ? WHERE id = ? AND status = 'pending'`,
+        `UPDATE outbox SET attempts = attempts + 1, next_attempt_at = ?, last_error = ?, refused = ? WHERE id = ? AND status = 'pending'`,
       ),
       defer: db.prepare(
         `UPDATE outbox SET next_attempt_at = ? WHERE id = ? AND status = 'pending' AND next_attempt_at < ?`,
@@ -82,6 +100,10 @@ function statements(db: Database): OutboxStatements {
       audit: db.prepare(
         `INSERT INTO audit (at, actor, action, alarm_id, loop_id, note) VALUES (?, 'system', ?, ?, NULL, ?)`,
       ),
+      release: db.prepare(
+        `UPDATE outbox SET next_attempt_at = @now WHERE status = 'pending' AND refused = 0 AND next_attempt_at > @now`,
+      ),
+      markDropped: db.prepare(`UPDATE outbox SET status = 'dropped', last_error = ? WHERE id = ? AND status = 'pending'`),
     };
     cache.set(db, s);
   }
@@ -110,6 +132,8 @@ function fromColumns(row: OutboxColumns): OutboxRow {
     nextAttemptAt: epoch(row.next_attempt_at),
     lastError: row.last_error,
     sentAt: row.sent_at === null ? null : epoch(row.sent_at),
+    reminder: row.reminder === 1,
+    refused: row.refused === 1,
   };
 }
 
@@ -130,6 +154,7 @@ export function enqueueOutbox(db: Database, message: OutboxMessage, now: number)
     headers: JSON.stringify({ ...message.headers, [FROM_KEY]: message.from }),
     alarmIds: JSON.stringify(message.alarmIds),
     createdAt: iso(now),
+    reminder: message.reminder === true ? 1 : 0,
   });
   return Number(result.lastInsertRowid);
 }
@@ -144,17 +169,34 @@ export function getOutboxRowByMessageId(db: Database, messageId: string): Outbox
   return row ? fromColumns(row) : null;
 }
 
-/** Pending rows whose attempt is due, oldest due first. */
+/**
+ * Pending rows whose attempt is due, in the order queued, leaving out any row behind an earlier one to
+ * the same mailbox that a link failure still holds back.
+ */
 export function dueOutbox(db: Database, now: number, limit = 100): OutboxRow[] {
-  return (statements(db).due.all(iso(now), limit) as OutboxColumns[]).map(fromColumns);
+  return (statements(db).due.all({ now: iso(now), limit }) as OutboxColumns[]).map(fromColumns);
+}
+
+/**
+ * The server takes mail again: every row held back by a link failure is due at `now` instead of after
+ * its own back-off. Rows the server refused keep theirs. Returns how many rows were released.
+ */
+export function releaseHeldOutbox(db: Database, now: number): number {
+  return statements(db).release.run({ now: iso(now) }).changes;
+}
+
+/** A pending row that will never be sent (an obsolete reminder); `reason` is kept in last_error. The caller audits it. */
+export function markOutboxDropped(db: Database, id: number, reason: string): void {
+  statements(db).markDropped.run(reason.slice(0, 1000), id);
 }
 
 export function markOutboxSent(db: Database, id: number, at: number): void {
   statements(db).markSent.run(iso(at), id);
 }
 
-export function markOutboxFailed(db: Database, id: number, nextAttemptAt: number, error: string): void {
-  statements(db).markFailed.run(iso(nextAttemptAt), error.slice(0, 1000), id);
+/** `refused`: the server refused this message (not the link), so the row holds no later mail back. */
+export function markOutboxFailed(db: Database, id: number, nextAttemptAt: number, error: string, refused = false): void {
+  statements(db).markFailed.run(iso(nextAttemptAt), error.slice(0, 1000), refused ? 1 : 0, id);
 }
 
 /** Moves a row's next attempt out to `until` (never earlier than it already is); the attempt count stays. */
@@ -177,7 +219,7 @@ export function outboxBacklog(db: Database): { pending: number; oldestCreatedAt:
 /** Audit row for a mail attempt; one per alarm the mail is about, or one without alarm for other mail. */
 export function recordMailAudit(
   db: Database,
-  entry: { at: number; action: Extract<AuditAction, 'mail-sent' | 'mail-failed'>; alarmIds: readonly number[]; note: string },
+  entry: { at: number; action: Extract<AuditAction, 'mail-sent' | 'mail-failed' | 'mail-dropped'>; alarmIds: readonly number[]; note: string },
 ): void {
   const s = statements(db);
   const at = iso(entry.at);

@@ -15,6 +15,8 @@ const t0 = Date.parse('2026-12-01T03:00:00.000Z');
 // The spec's promise: first retry within 30 s, capped at 15 min. The config defaults (15 s, 15 min) sit inside it.
 const RETRY_FIRST = 15_000;
 const RETRY_MAX = 15 * 60_000;
+// Issue 16 item 4: while the server cannot be reached, the oldest waiting mail tries again at least every 30 s.
+const LINK_RETRY_MAX = 30_000;
 
 let t: TestDb | undefined;
 const sinks: SmtpSink[] = [];
@@ -65,7 +67,7 @@ function auditCount(db: Database, action: string): number {
 }
 
 describe('outbox worker with the mail server down, then up', () => {
-  it('loses nothing, spaces retries as promised, raises and clears "mail failing"', async () => {
+  it('loses nothing, tries the oldest mail at least every 30 s while the server is away, raises and clears "mail failing"', async () => {
     t = openTestDb();
     const port = await freePort(); // nothing listens: connection refused, like a server that is down
     const clock = { now: t0 };
@@ -83,10 +85,11 @@ describe('outbox worker with the mail server down, then up', () => {
       clock.now = w.nextDueAt()!;
     }
     const gaps = attemptTimes.slice(1).map((at, i) => (at - attemptTimes[i]!) / 1000);
-    // 15 s doubling to the 900 s cap: 15, 30, 60, 120, 240, 480, 900, 900, …
-    expect(gaps.slice(0, 8)).toEqual([15, 30, 60, 120, 240, 480, 900, 900]);
+    // Changed by issue 16 item 4 (was 15 s doubling to the 900 s cap): a down link is tried again after
+    // retry_first, doubling, but never more than 30 s apart, so the backlog moves soon after the server returns.
+    expect(gaps.slice(0, 5)).toEqual([15, 30, 30, 30, 30]);
     expect(gaps[0]! * 1000).toBeLessThanOrEqual(30_000);
-    expect(Math.max(...gaps) * 1000).toBeLessThanOrEqual(RETRY_MAX);
+    expect(Math.max(...gaps) * 1000).toBeLessThanOrEqual(LINK_RETRY_MAX);
     expect(events).toHaveLength(1);
     expect(events[0]).toMatch(/^failing: 3 attempts in a row failed; last: cannot connect to 127\.0\.0\.1:\d+ \(connection refused\)/);
 
@@ -99,7 +102,7 @@ describe('outbox worker with the mail server down, then up', () => {
     const sink = await startSmtpSink({ port });
     sinks.push(sink);
     const result = await w.runOnce(); // at the next due time
-    expect(result).toEqual({ sent: 3, failed: 0, deferred: 0 });
+    expect(result).toEqual({ sent: 3, failed: 0, deferred: 0, dropped: 0 });
     expect(events).toEqual([events[0], 'recovered']);
     expect(sink.messages.map((m) => m.messageId).sort()).toEqual([...messageIds].sort());
     for (const id of messageIds) expect(getOutboxRowByMessageId(t.db, id)!.status).toBe('sent');
@@ -109,7 +112,7 @@ describe('outbox worker with the mail server down, then up', () => {
 
     // Nothing is sent twice.
     clock.now += 3_600_000;
-    expect(await w.runOnce()).toEqual({ sent: 0, failed: 0, deferred: 0 });
+    expect(await w.runOnce()).toEqual({ sent: 0, failed: 0, deferred: 0, dropped: 0 });
     expect(sink.messages).toHaveLength(3);
   });
 
@@ -142,7 +145,7 @@ describe('outbox worker with the mail server down, then up', () => {
     const after = worker(db, smtpTo(port), clock, { initiallyFailing: true });
     expect(await after.w.runOnce()).toMatchObject({ sent: 3, failed: 0 });
     expect(after.events).toEqual(['recovered']);
-    expect(await after.w.runOnce()).toEqual({ sent: 0, failed: 0, deferred: 0 });
+    expect(await after.w.runOnce()).toEqual({ sent: 0, failed: 0, deferred: 0, dropped: 0 });
     expect(sink.messages.map((m) => m.messageId).sort()).toEqual([...messageIds].sort());
   });
 
@@ -154,13 +157,33 @@ describe('outbox worker with the mail server down, then up', () => {
     const [refused] = queueMail(t.db, ['vet'], t0);
     const [accepted] = queueMail(t.db, ['office'], t0);
     const { w, events } = worker(t.db, smtpTo(sink.port), clock);
-    expect(await w.runOnce()).toEqual({ sent: 1, failed: 1, deferred: 0 });
+    expect(await w.runOnce()).toEqual({ sent: 1, failed: 1, deferred: 0, dropped: 0 });
     expect(sink.messages.map((m) => m.messageId)).toEqual([accepted]);
     const row = getOutboxRowByMessageId(t.db, refused!)!;
     expect(row.status).toBe('pending');
     expect(row.lastError).toMatch(/refused the sender or a recipient.*550/);
     expect(row.nextAttemptAt).toBe(t0 + RETRY_FIRST);
     expect(events).toEqual([]);
+  });
+
+  it('a message the server keeps refusing backs off from retry_first, doubling, up to retry_max', async () => {
+    t = openTestDb();
+    const sink = await startSmtpSink({ rejectRecipients: ['sam@ridgeway.example'] });
+    sinks.push(sink);
+    const clock = { now: t0 };
+    const [refused] = queueMail(t.db, ['vet'], t0);
+    const { w } = worker(t.db, smtpTo(sink.port), clock);
+    const attemptTimes: number[] = [];
+    while (clock.now < t0 + 3_600_000) {
+      expect(await w.runOnce()).toMatchObject({ sent: 0, failed: 1 });
+      attemptTimes.push(clock.now);
+      clock.now = w.nextDueAt()!;
+    }
+    const gaps = attemptTimes.slice(1).map((at, i) => (at - attemptTimes[i]!) / 1000);
+    // The 30 s cap is for a link that is down; a refusal of this very message still spaces out to 15 min.
+    expect(gaps.slice(0, 8)).toEqual([15, 30, 60, 120, 240, 480, 900, 900]);
+    expect(Math.max(...gaps) * 1000).toBeLessThanOrEqual(RETRY_MAX);
+    expect(getOutboxRowByMessageId(t.db, refused!)).toMatchObject({ status: 'pending', refused: true });
   });
 
   it('runOnce called twice at once sends each row once', async () => {

@@ -71,6 +71,7 @@ const ENGINE_NOTES: Record<AuditAction, string | null> = {
   'mail-failed': '[ALARM] Larkfield Smallholding: Seed store — tripped: attempt 2 failed: connect ECONNREFUSED 127.0.0.1:25; next try 2026-12-01T20:05:00.000Z',
   close: null,
   'mail-reply': 'reply <abc@mail.example> from office@larkfield.example; dkim=pass spf=pass',
+  'mail-dropped': '[ALARM] Larkfield Smallholding: Seed store — tripped, not acknowledged: not sent: a reminder made obsolete, alarm 7 acknowledged before it could go',
 };
 
 let web: TestWeb;

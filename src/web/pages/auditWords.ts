@@ -102,6 +102,9 @@ export function auditWords(row: AuditRow, contacts: ContactNames, timeZone: stri
       const again = Number.isNaN(nextMs) ? '' : `; trying again at ${siteTime(nextMs, timeZone, now)}`;
       return monitor(`mail not delivered${attempt ? ` (attempt ${attempt[1]})` : ''}${again}`);
     }
+    case 'mail-dropped':
+      // "<subject>: not sent: a reminder made obsolete, alarm 7 acknowledged before it could go"
+      return monitor('reminder not mailed: no longer needed');
     case 'close':
       return monitor('closed');
     case 'mail-reply': {

@@ -8,7 +8,7 @@ import { makeTempDir } from '../../helpers/tempDir.js';
 
 const MIGRATIONS = fileURLToPath(new URL('../../../migrations/', import.meta.url));
 // Only the schema this layer uses; other migrations belong to others and may be mid-edit.
-const NOTIFY_MIGRATIONS = ['001_core.sql'];
+const NOTIFY_MIGRATIONS = ['001_core.sql', '070_outbox_backlog.sql'];
 
 export interface TestDb {
   db: Db;
