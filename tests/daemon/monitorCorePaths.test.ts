@@ -266,6 +266,8 @@ describe('what the journal says about the decoder', () => {
     m.feed(healthy(2_000_000));
     m.core.line('main', encodeLine('FAULT 99 2100000 SUPPLY').replace(/\n$/, ''), m.at());
     m.core.line('main', 'TICK 9 1 NN*0000', m.at());
+    // A sequence gap (frames lost on the way) is counted, not logged as a dropped line.
+    m.core.line('main', line('TICK 60 2300000 NN'), T0 + 2_300);
     expect(m.logs(/^dropped a line$/)).toHaveLength(1);
     expect(m.logs(/port open$/)).toEqual([expect.objectContaining({ level: 30, decoderId: 'main', msg: 'decoder main port open' })]);
     expect(m.read('SELECT COUNT(*) AS n FROM decoder_sessions')).toEqual([{ n: 1 }]);
