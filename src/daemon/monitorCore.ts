@@ -187,7 +187,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     for (const effect of effects) {
       if (effect.kind !== 'audit') continue;
       const { entry } = effect;
-      // Stryker disable next-line ConditionalExpression,StringLiteral: the alarm engine emits no mail-sent entries (the outbox worker writes its own); the skip is a guard
+      // Stryker disable next-line StringLiteral: the alarm engine emits no mail-sent entries (the outbox worker writes its own), so no action equals the empty string either
       if (entry.action === 'mail-sent') continue;
       logger.info({ alarmId: entry.alarmId, loopId: entry.loopId, action: entry.action, actor: entry.actor, note: entry.note }, `alarm ${entry.action}`);
     }
@@ -235,7 +235,6 @@ export function createMonitorCore(options: MonitorCoreOptions) {
         case 'loop': {
           const loopLive = live.get(effect.loopId);
           const e = effect.effect;
-          // Stryker disable next-line ConditionalExpression: live holds every configured loop, and the site index names only those
           if (!loopLive) break;
           if (e.kind === 'pulse') {
             loopLive.lastPulseAtMs = effect.atMs;
@@ -258,7 +257,6 @@ export function createMonitorCore(options: MonitorCoreOptions) {
             logger.info({ decoderId, firmware: event.firmware, loops: event.loops }, `decoder ${decoderId} started (HELLO, firmware ${event.firmware})`);
             decoderWork.push((s) => {
               const id = sessionIds.get(decoderId);
-              // Stryker disable next-line ConditionalExpression: queued in order after the session open, which sets the id; an undefined id would update no row
               if (id !== undefined) s.decoderSessions.hello(id, now, event.firmware, event.loops);
             });
             const decoderConfig = config.decoders.find((d) => d.id === decoderId);
@@ -395,10 +393,8 @@ export function createMonitorCore(options: MonitorCoreOptions) {
         for (const [loopId, at] of lastPulses) s.loopStatus.setLastPulse(loopId, at);
         for (const { decoderId, counts, lastValidAtMs } of counters) {
           const id = sessionIds.get(decoderId);
-          // Stryker disable next-line ConditionalExpression: an undefined session id would update no row; the skip only saves the statements
           if (id === undefined) continue;
           s.decoderSessions.counters(id, { frames: counts.frames, badFrames: counts.dropped, lostFrames: counts.lost }, now);
-          // Stryker disable next-line ConditionalExpression,EqualityOperator: lastValidAtMs starts at start-up time (initialSiteState) and is never null here
           if (lastValidAtMs !== null) s.decoderSessions.heard(id, lastValidAtMs);
         }
       },
@@ -440,7 +436,6 @@ export function createMonitorCore(options: MonitorCoreOptions) {
       const counts = sessionCounters(site.decoders[decoderId]!.session);
       writer.commit('session close', (s) => {
         const id = sessionIds.get(decoderId);
-        // Stryker disable next-line ConditionalExpression: an undefined session id would update no row; the return only saves the statements
         if (id === undefined) return;
         sessionIds.delete(decoderId);
         s.decoderSessions.counters(id, { frames: counts.frames, badFrames: counts.dropped, lostFrames: counts.lost }, now);
@@ -486,9 +481,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     nextSilenceAtMs(): number | null {
       let earliest: number | null = null;
       for (const decoder of Object.values(site.decoders)) {
-        if (decoder.offline) continue;
-        // Stryker disable next-line ConditionalExpression,EqualityOperator: lastValidAtMs starts at start-up time (initialSiteState) and is never null here
-        if (decoder.lastValidAtMs === null) continue;
+        if (decoder.offline || decoder.lastValidAtMs === null) continue;
         const at = decoder.lastValidAtMs + (index.silenceMs.get(decoder.id) ?? 0);
         if (earliest === null || at < earliest) earliest = at;
       }

@@ -192,6 +192,39 @@ describe('durable writer: failure episodes', () => {
   });
 });
 
+describe('durable writer: the queue bound after a partial catch-up', () => {
+  it('items written one by one still leave the count of droppable batches right, so the bound keeps dropping the oldest edges', () => {
+    const rejected: string[] = [];
+    const { writer, recovered } = harness({ maxQueued: 3, onRejected: (label) => rejected.push(label) });
+    failure = FULL;
+    writer.commit('c1', change(1));
+    writer.commit('bad', (s) => void s.audit.insert({ at: T0, actor: 'x', action: 'raise', alarmId: 999, loopId: null, note: null }));
+    writer.commit('e1', edge(1), { droppable: true });
+    // Catch-up: the batch fails on the bad item, then one by one: c1 written, bad rejected, the disk fills at e1.
+    failure = null;
+    let transactions = 0;
+    flaky.transaction = (fn) => {
+      transactions += 1;
+      if (transactions >= 4) throw Object.assign(new Error('injected'), FULL);
+      return real.transaction(fn);
+    };
+    expect(writer.flush()).toBe('failing');
+    expect(rejected).toEqual(['bad']);
+    expect(writer.queuedLabels()).toEqual({ e1: 1 });
+    writer.commit('e2', edge(2), { droppable: true });
+    writer.commit('c3', change(3));
+    writer.commit('c4', change(4)); // full (3): e1, the oldest droppable, goes
+    expect(writer.queuedLabels()).toEqual({ e2: 1, c3: 1, c4: 1 });
+    expect(writer.status().droppedBatches).toBe(1);
+    flaky.transaction = (fn) => real.transaction(fn);
+    expect(writer.flush()).toBe('written');
+    expect(stored()).toEqual(['change 1', 'change 3', 'change 4']);
+    expect((real.db.prepare('SELECT decoder_us AS us FROM edges').all() as Array<{ us: number }>).map((r) => r.us)).toEqual([2]);
+    // c1 alone, then e2, c3 and c4 as one batch.
+    expect(recovered).toEqual([{ written: 4, droppedBatches: 1, failedForMs: 0 }]);
+  });
+});
+
 describe('durable writer: the file guard and what a stop reports', () => {
   it('a guard refusal holds the work as a failing disk does, named by the label that met it', () => {
     let gone: StorageFailure | null = null;
@@ -242,7 +275,9 @@ describe('durable writer: the file guard and what a stop reports', () => {
 
   it('flush never throws, even when the clock it is given does', () => {
     let broken = false;
+    const rejected: string[] = [];
     const { writer } = harness({
+      onRejected: (label) => rejected.push(label),
       now: () => {
         if (broken) throw new Error('clock gone');
         return T0;
@@ -252,5 +287,6 @@ describe('durable writer: the file guard and what a stop reports', () => {
     writer.commit('c1', change(1));
     broken = true;
     expect(writer.flush()).toBe('failing');
+    expect(rejected).toEqual(['flush']);
   });
 });

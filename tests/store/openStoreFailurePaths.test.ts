@@ -54,6 +54,26 @@ describe('openStore: a failed open leaves nothing behind', () => {
     store.close();
   });
 
+  it('a tool opening without the lock gets the same refusal, not an error about the missing lock', () => {
+    writeFileSync(path, 'a spreadsheet saved under the wrong name '.repeat(200));
+    expect(codeOf(() => openStore({ path, lock: false }))).toBe('PW_STORE_NOT_PAIRWATCH');
+    const other = join(tmp.dir, 'other.db');
+    const partial = join(tmp.dir, 'partial-migrations');
+    mkdirSync(partial);
+    const first = readdirSync(defaultMigrationsDir()).filter((n) => n.endsWith('.sql')).sort()[0]!;
+    copyFileSync(join(defaultMigrationsDir(), first), join(partial, first));
+    expect(codeOf(() => openStore({ path: other, migrationsDir: partial, lock: false }))).toMatch(/^SQLITE_ERROR: SqliteError: no such table/);
+  });
+
+  it('without cache_kib the connection keeps the build default page cache', () => {
+    const plain = new Database(join(tmp.dir, 'plain.db'));
+    const buildDefault = plain.pragma('cache_size', { simple: true });
+    plain.close();
+    const store = openStore({ path });
+    expect(store.db.pragma('cache_size', { simple: true })).toBe(buildDefault);
+    store.close();
+  });
+
   it('a page cache below 1 KiB is raised to 1 KiB; fractions are rounded', () => {
     const small = openStore({ path, cacheKib: 0.2 });
     expect(small.db.pragma('cache_size', { simple: true })).toBe(-1);
