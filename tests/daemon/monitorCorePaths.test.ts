@@ -129,15 +129,19 @@ describe('restart: what the monitor takes over from the file', () => {
     const first = start();
     first.core.raiseSystem('mail-failing', T0);
     first.core.clearSystem('mail-failing', T0 + 1000);
+    // Cleared and acknowledged: closed, so the restart does not load it as an open alarm.
+    first.core.alarmAction({ kind: 'ack', alarmId: 1, actor: 'ann', note: null }, T0 + 1500);
+    expect(first.core.openAlarms()).toEqual([]);
     const [old] = first.read<{ id: number; condition: string }>('SELECT id, condition FROM alarms');
     expect(old).toEqual({ id: 1, condition: 'mail-failing' });
     stores[0]!.close();
     const second = start();
     second.core.raiseSystem('inbox-failing', T0 + 2000);
-    // mail-failing is still open (cleared, not acknowledged): raising it again is the same alarm.
+    second.core.raiseSystem('mail-failing', T0 + 3000); // a new alarm: the old one is closed
     expect(second.read('SELECT id, condition FROM alarms ORDER BY id')).toEqual([
       { id: 1, condition: 'mail-failing' },
       { id: 2, condition: 'inbox-failing' },
+      { id: 3, condition: 'mail-failing' },
     ]);
     expect(second.read('SELECT raised_at FROM alarms WHERE id = 1')).toEqual([{ raised_at: new Date(T0).toISOString() }]);
   });
@@ -159,6 +163,20 @@ describe('restart: what the monitor takes over from the file', () => {
     expect(second.core.openAlarms().filter((a) => a.condition === 'offline' && a.active)).toEqual([]);
     const [row] = second.read<{ active: number; cleared_at: string }>("SELECT active, cleared_at FROM alarms WHERE condition = 'offline'");
     expect(row).toEqual({ active: 0, cleared_at: new Date(T0 + 10 * MIN + 100).toISOString() });
+  });
+
+  it('other open alarms on the decoder, or an offline alarm already cleared, do not start it offline', () => {
+    const first = start();
+    first.core.linkStatus('main', { state: 'connected' }, T0);
+    first.feed(healthy(2_000_000));
+    first.core.line('main', line('FAULT 40 2100000 SUPPLY'), T0 + 2_100);
+    first.set(T0 + 5_000);
+    first.core.tick(first.at()); // silent: offline
+    first.core.line('main', line('HELLO 1 2 test-1'), T0 + 5_100); // talking again: offline cleared, not acknowledged
+    expect(first.core.openAlarms().map((a) => [a.condition, a.active]).sort()).toEqual([['decoder-fault', true], ['offline', false]]);
+    stores[0]!.close();
+    const second = start();
+    expect(second.core.decoderRuntime('main')).toMatchObject({ offline: false });
   });
 
   it('keeps the last pulse of each loop across a restart, and only the out-of-service loops out of service', () => {
