@@ -49,13 +49,11 @@ export interface Store {
 export function openStore(options: OpenStoreOptions): Store {
   // The lock comes first: a second daemon must not even migrate the file under the first one.
   const lock: StoreLock | null = options.lock === false ? null : acquireStoreLock(options.path);
+  // migrationsDir, busyTimeoutMs and now are openDatabase's own options: passed on as given.
+  const { path: _path, lock: _lock, cacheKib: _cacheKib, ...databaseOptions } = options;
   let opened: OpenedDatabase;
   try {
-    opened = openDatabase(options.path, {
-      ...(options.migrationsDir !== undefined && { migrationsDir: options.migrationsDir }),
-      ...(options.busyTimeoutMs !== undefined && { busyTimeoutMs: options.busyTimeoutMs }),
-      ...(options.now !== undefined && { now: options.now }),
-    });
+    opened = openDatabase(options.path, databaseOptions);
   } catch (error) {
     lock?.release();
     throw error;
@@ -88,6 +86,7 @@ export function openStore(options: OpenStoreOptions): Store {
       closed = true;
       try {
         if (db.open) {
+          // Stryker disable next-line BlockStatement: PRAGMA optimize only refreshes the query planner's statistics; no data depends on it
           try {
             db.pragma('optimize');
           } catch {
