@@ -43,7 +43,7 @@ describe('the subject of a mail about one alarm', () => {
     ['a raise of an alarm already back to normal', { active: false, clearedAt: t0 + MIN, state: 'returned-unacknowledged' }, 'raised', {}, 'tripped, back to normal — still needs acknowledging'],
     ['escalated', {}, 'escalated', {}, 'tripped, not acknowledged'],
     ['a repeat', {}, 'repeat', {}, 'tripped, not acknowledged'],
-    ['a repeat of a latched alarm whose condition has gone', { active: false, clearedAt: t0 + MIN, latched: true }, 'repeat', {}, 'tripped, back to normal — still needs acknowledging'],
+    ['a repeat of a latched alarm whose condition has gone', { active: false, clearedAt: t0 + MIN }, 'repeat', {}, 'tripped, back to normal — still needs acknowledging'],
     ['acknowledged, naming who', { state: 'acknowledged', ackedAt: t0 + MIN, ackedBy: 'ann' }, 'acknowledged', { actor: 'ann' }, 'tripped, acknowledged by ann'],
     ['acknowledged with nobody named', { state: 'acknowledged', ackedAt: t0 + MIN }, 'acknowledged', {}, 'tripped, acknowledged'],
     ['cleared and closed', { state: 'normal', active: false, clearedAt: t0 + 2 * MIN, ackedAt: t0 + MIN, ackedBy: 'ann' }, 'cleared', {}, 'back to normal'],
