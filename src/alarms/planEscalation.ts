@@ -59,6 +59,7 @@ export function planEscalation(alarm: AlarmRecord, policy: EscalationPolicy, now
   let repeatsDone = prior.repeatsDone;
   const every = policy.repeatEveryMs;
   // Before the raise time (clock stepped back) the slot count is negative and nothing is due.
+  // Stryker disable next-line ConditionalExpression: null > 0 is false, so the null check alone decides nothing
   if (every !== null && every > 0) {
     const slotsPassed = Math.min(policy.maxRepeats, Math.floor((now - start) / every));
     if (slotsPassed > repeatsDone) {
@@ -72,6 +73,7 @@ export function planEscalation(alarm: AlarmRecord, policy: EscalationPolicy, now
 
   const nextStep = policy.steps[stepsDone];
   const nextStepAt = nextStep === undefined ? null : start + nextStep.afterMs;
+  // Stryker disable next-line ConditionalExpression: null > 0 is false, so the null check alone decides nothing
   const nextRepeatAt = every !== null && every > 0 && repeatsDone < policy.maxRepeats ? start + (repeatsDone + 1) * every : null;
   const nextAt = nextStepAt === null ? nextRepeatAt : nextRepeatAt === null ? nextStepAt : Math.min(nextStepAt, nextRepeatAt);
 

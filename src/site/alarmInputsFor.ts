@@ -34,6 +34,7 @@ export function alarmInputsFor(loops: LoopsById, effect: SiteEffect, intermitten
       return [raiseFor(loops, effect.decoderId, null, 'decoder-fault')];
     case 'edge':
       return [];
+    // Stryker disable next-line ConditionalExpression,StringLiteral: without the case a loop effect leaves the switch all the same, to the code below
     case 'loop':
       break;
   }
@@ -44,6 +45,7 @@ export function alarmInputsFor(loops: LoopsById, effect: SiteEffect, intermitten
       ? [raiseFor(loops, loopId, loopId, 'intermittent')]
       : [{ kind: 'clear', source: loopId, condition: 'intermittent' }];
   }
+  // Stryker disable next-line ConditionalExpression: a pulse has no from/to, so the code below gives no input for it either
   if (loopEffect.kind !== 'state') return [];
   const inputs: AlarmInput[] = [];
   if (loopEffect.to === 'healthy') {

@@ -103,6 +103,7 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
   };
   /** Held back for the mass-trip rule: a trip of a decoder with 2+ loops, and whatever a held loop does next. */
   const holdsBack = (loop: SiteLoop, effect: SiteEffect): boolean => {
+    // Stryker disable next-line ConditionalExpression,BooleanLiteral: feedLoop hands only loop effects to holdsBack
     if (effect.kind !== 'loop') return false;
     const hold = tripHolds[loop.decoderId];
     if (hold?.loopIds.includes(loop.id)) {
@@ -110,9 +111,12 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
       return true;
     }
     const e = effect.effect;
+    // Stryker disable next-line ConditionalExpression: a pulse or intermittent effect has no `to`, so the second test turns it away as well
     if (e.kind !== 'state' || e.to !== 'tripped') return false;
+    // Stryker disable next-line ConditionalExpression,OptionalChaining: a one-loop decoder's hold opens and is released, in order, at the end of this same step (below); the loop came from that map
     if ((index.loopsByDecoder.get(loop.decoderId)?.length ?? 0) < 2) return false;
     if ((believedUntil[loop.decoderId] ?? -Infinity) > nowMs) return false;
+    // Stryker disable next-line ConditionalExpression: a hold opened in an earlier step already has a loop, so with this one it is never under two and is not released early
     if (!hold) (holdsOpenedNow ??= new Set()).add(loop.decoderId);
     setHold(loop.decoderId, {
       sinceMs: hold?.sinceMs ?? nowMs,
@@ -132,9 +136,12 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
   const feedLoop = (loop: SiteLoop, li: LoopInput, placeAt: (atUs: number | undefined) => number) => {
     const index = loop.index!;
     const result = stepLoop(loops[index]!, li, loop.settings);
+    // Stryker disable next-line ConditionalExpression: copy-on-write only saves copies; writing the same state back changes nothing
     if (result.state !== loops[index]) {
+      // Stryker disable next-line ConditionalExpression: copying again gives the same loops (the state handed in is never written)
       if (!loopsCopied) {
         loops = loops.slice();
+        // Stryker disable next-line BooleanLiteral: copying again gives the same loops (the state handed in is never written)
         loopsCopied = true;
       }
       (loops as LoopClassifierState[])[index] = result.state;
@@ -157,6 +164,7 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
     feedLoops(decoderId, () => ({ kind: 'restart' }), () => nowMs);
     // The shell never heard of the held trips: restate each loop's way to `unknown` from what it did hear.
     const restated = effects.splice(before).flatMap((effect): SiteEffect[] => {
+      // Stryker disable next-line ConditionalExpression,LogicalOperator,ArrayDeclaration: a restart gives only state effects (loopClassifier startOver)
       if (effect.kind !== 'loop' || effect.effect.kind !== 'state') return [effect];
       const from: LoopState = hold.from[effect.loopId] ?? effect.effect.from;
       return from === effect.effect.to ? [] : [{ ...effect, effect: { ...effect.effect, from } }];
@@ -177,6 +185,7 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
     case 'clock': {
       for (const decoder of Object.values(decoders)) {
         const silenceMs = index.silenceMs.get(decoder.id) ?? 2000;
+        // Stryker disable next-line ConditionalExpression,LogicalOperator: goOffline leaves an offline decoder as it is, and initialSiteState sets lastValidAtMs, so it is never null here
         if (!decoder.offline && decoder.lastValidAtMs !== null && nowMs - decoder.lastValidAtMs >= silenceMs) {
           decoders[decoder.id] = goOffline(decoder, `no valid line for ${Math.round((nowMs - decoder.lastValidAtMs) / 100) / 10} s`);
         }
@@ -214,6 +223,7 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
         const lagMs = nowMs - frameUs / 1000;
         const floorMs = decoder.hostLagMs === null ? null : decoder.hostLagMs + Math.max(0, nowMs - (decoder.latestHostMs ?? nowMs)) * DECODER_CLOCK_CREEP;
         const toleranceMs = index.definition.decoderClockAheadMs ?? null;
+        // Stryker disable next-line ConditionalExpression: with no floor yet the test reads lagMs < null − tolerance, i.e. below −tolerance, which a host-minus-decoder time in epoch ms never is
         if (floorMs !== null && toleranceMs !== null && lagMs < floorMs - toleranceMs) {
           // Stamped far beyond the host's time: not applied. Decoder time is put back in step with the host.
           const inStepUs = Math.round((nowMs - floorMs) * 1000);
@@ -241,6 +251,7 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
         }
         const anchorUs = decoder.latestDecoderUs;
         const placeAt = (atUs: number | undefined) =>
+          // Stryker disable next-line ConditionalExpression,LogicalOperator: every loop effect has atUs, and the anchor was set from this very event's time before placeAt is used
           atUs === undefined || anchorUs === null ? nowMs : Math.round(nowMs - (anchorUs - atUs) / 1000);
         if (decoder.offline) {
           decoder.offline = false;
@@ -288,6 +299,7 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
       continue;
     }
     if (nowMs - hold.sinceMs < MASS_TRIP_WINDOW_MS) continue;
+    // Stryker disable next-line OptionalChaining: a hold is only opened for a decoder that has loops in that map
     releaseHold(decoderId, hold, hold.loopIds.length === (index.loopsByDecoder.get(decoderId)?.length ?? 0));
   }
   return { state: { decoders, loops, tripHolds, massTripBelievedUntil: believedUntil }, effects };
