@@ -76,7 +76,7 @@ export async function run(opts: BenchOptions): Promise<BenchResult> {
     );
   }
   notes.push(
-    `Fed: the project's simulated decoder, ${LOOPS} loops, TICK every 200 ms, each node pulsing 1 ms every 500 ms ±10 % (the real heartbeat rate, about 5.9 M lines a simulated day), with the 30-day soak's daily trouble (4 freezes, a cut, a short, lost frames) on rotating loops.`,
+    `Fed: the project's simulated decoder, ${LOOPS} loops, TICK every 200 ms, each node pulsing 1 ms every 500 ms ±10 % (the real heartbeat rate: 4 band changes a second per loop, about 11.4 M lines a simulated day), with the 30-day soak's daily trouble (4 freezes, a cut, a short, lost frames) on rotating loops.`,
     `Each simulated second's lines are written into a socat pty the daemon reads through serialport; then the daemon's clock (Date.now and its timers, faked in the child only) moves one second. Node's own socket and HTTP timers keep real time.`,
     `RSS at start, after day 1 and at the end is read after a forced garbage collection (the child runs with --expose-gc), so "flat" compares live memory; the highest reading without a collection is shown beside it.`,
   );
