@@ -30,7 +30,7 @@ export interface BenchOptions {
   smoke: boolean;
 }
 
-export const BENCH_NAMES = ['ingest', 'store', 'detection', 'alarm-to-mail', 'api', 'soak', 'estate', 'firmware'] as const;
+export const BENCH_NAMES = ['ingest', 'store', 'detection', 'alarm-to-mail', 'api', 'soak', 'service-soak', 'estate', 'firmware'] as const;
 export type BenchName = (typeof BENCH_NAMES)[number];
 
 export type BenchScenario = (opts: BenchOptions) => Promise<BenchResult>;

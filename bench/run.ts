@@ -84,7 +84,7 @@ async function main(argv: string[]): Promise<number> {
   if (out !== undefined) {
     const file = resolve(out);
     mkdirSync(dirname(file), { recursive: true });
-    writeFileSync(file, markdownReport(results, failures, machine, startedAt, smoke));
+    writeFileSync(file, markdownReport(results, failures, machine, startedAt, smoke, args.only ?? null));
     process.stdout.write(`\nresults written to ${file}\n`);
   }
   if (failures.length > 0) {
@@ -141,11 +141,12 @@ function runInChild(name: BenchName, smoke: boolean): Promise<{ result: BenchRes
   });
 }
 
-function markdownReport(results: readonly BenchResult[], failures: readonly string[], machine: MachineInfo, startedAt: Date, smoke: boolean): string {
+function markdownReport(results: readonly BenchResult[], failures: readonly string[], machine: MachineInfo, startedAt: Date, smoke: boolean, only: string | null): string {
+  const kind = smoke ? 'smoke run: figures not meaningful' : only !== null ? `one scenario, \`npm run bench -- --only ${only}\`` : 'full run, `npm run bench`';
   const parts = [
     '# pairwatch benchmark results',
     '',
-    `- Run: ${startedAt.toISOString().replace(/\.\d{3}Z$/, 'Z')} (${smoke ? 'smoke run: figures not meaningful' : 'full run, `npm run bench`'})`,
+    `- Run: ${startedAt.toISOString().replace(/\.\d{3}Z$/, 'Z')} (${kind})`,
     `- Machine: ${machineLine(machine)}`,
     '- Each figure is measured in the same run as its reference; ratios travel between machines better than absolute numbers.',
     '',

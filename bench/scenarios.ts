@@ -11,6 +11,7 @@ export const SCENARIOS: Record<BenchName, () => Promise<BenchScenario>> = {
   'alarm-to-mail': async () => (await import('./alarmToMail.bench.js')).run,
   api: async () => (await import('./api.bench.js')).run,
   soak: async () => (await import('./soak.bench.js')).run,
+  'service-soak': async () => (await import('./serviceSoak.bench.js')).run,
   estate: async () => (await import('./estate.bench.js')).run,
   firmware: async () => (await import('./firmware.bench.js')).run,
 };

@@ -152,12 +152,13 @@ function exposeGc(): () => void {
   }
 }
 
-function dailyTrouble(days: number): NonNullable<ScenarioInput['events']> {
+/** Each day's invented trouble on rotating loops; the service soak feeds the same days. */
+export function dailyTrouble(days: number, loops = LOOPS): NonNullable<ScenarioInput['events']> {
   const events: NonNullable<ScenarioInput['events']> = [];
   const hour = 3_600_000;
   for (let day = 0; day < days; day++) {
     const base = day * DAY_MS;
-    const loop = (k: number) => ((day * 7 + k) % LOOPS) + 1;
+    const loop = (k: number) => ((day * 7 + k) % loops) + 1;
     for (let k = 0; k < 4; k++) {
       events.push({ at: base + (2 + k * 5) * hour, input: loop(k), action: 'freeze' }, { at: base + (3 + k * 5) * hour, input: loop(k), action: 'thaw' });
     }

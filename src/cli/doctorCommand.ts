@@ -3,7 +3,7 @@ import type { CliCommand } from './cliTypes.js';
 import { defineCommand, UsageError } from './defineCommand.js';
 import { DEFAULT_CONFIG_PATH } from './loadConfigForCli.js';
 import { createDoctorDeps } from '../ops/doctor/defaultDoctorDeps.js';
-import { formatCheckResult } from '../ops/doctor/formatCheckResult.js';
+import { formatCheckResult } from '../ops/doctor/checkResult.js';
 import { doctorExitCode, runDoctor, type DoctorDeps } from '../ops/doctor/runDoctor.js';
 
 const USAGE =

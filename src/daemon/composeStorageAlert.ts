@@ -1,7 +1,6 @@
 import type { SiteConfig } from '../config/schema.js';
 import { CONDITION_TEXT } from '../model/condition.js';
-import { PRIORITY_TAG } from '../notify/mailLayout.js';
-import { escapeHtml } from '../notify/escapeHtml.js';
+import { escapeHtml, PRIORITY_TAG } from '../notify/mailLayout.js';
 import { formatSiteAndUtc } from '../notify/formatSiteTime.js';
 import type { OutboxMessage } from '../model/outboxMessage.js';
 import type { StorageFailure } from '../store/createDurableWriter.js';

@@ -6,10 +6,9 @@ import { createDecoderLink } from '../ingest/createDecoderLink.js';
 import { loadOrCreateAckSecret } from '../notify/ackSecret.js';
 import { composeDailyReport } from '../notify/composeDailyReport.js';
 import { composeLifecycleMail, type LifecycleEvent } from '../notify/composeLifecycleMail.js';
-import { dropFolderFor } from '../notify/dropFolder.js';
 import { flushDigests } from '../notify/flushDigests.js';
 import { nextNoticeDueAt } from '../notify/noticeQueue.js';
-import { createDropFolderTransport, createSmtpTransport, type MailTransport } from '../notify/mailTransport.js';
+import { createDropFolderTransport, createSmtpTransport, dropFolderFor, type MailTransport } from '../notify/mailTransport.js';
 import { nextReportAt } from '../notify/nextReportAt.js';
 import { mailbox, noticeSettingsFromConfig, publicUrlFor } from '../notify/noticeSettings.js';
 import { createOutboxWorker } from '../notify/outboxWorker.js';
@@ -34,12 +33,11 @@ import { createDirectNotices } from './createDirectNotices.js';
 import { createMonitorCore } from './monitorCore.js';
 import { alarmEventsOf } from '../mqtt/alarmEvents.js';
 import { enqueueAlarmEvents } from '../mqtt/mqttOutbox.js';
-import { startSitePublisher, type SitePublisher } from '../mqtt/sitePublisher.js';
+import type { SitePublisher } from '../mqtt/sitePublisher.js';
 import { findUnsavedAlarms, reserveSpace, writeUnsavedAlarms } from './writeUnsavedAlarms.js';
 import { runMaintenance } from './runMaintenance.js';
 import { countOf } from '../model/plural.js';
-import { createReplyHandler } from '../inbox/handleInboxMessage.js';
-import { createImapWatcher, type ImapWatcher } from '../inbox/imapWatcher.js';
+import type { ImapWatcher } from '../inbox/imapWatcher.js';
 import { messageIdDomain } from '../notify/messageId.js';
 
 /**
@@ -218,8 +216,11 @@ export async function startMonitor(options: StartMonitorOptions) {
   }
 
   // --- mqtt (issue 12): states and alarm events to an MQTT 5 broker -------------------------------
+  // The broker client and the mail parser, IMAP client and DKIM checker below are loaded only when
+  // configured: together they are some 50 MB of resident memory a site without them never needs.
   const mqttConfig = config.mqtt;
   if (mqttConfig) {
+    const { startSitePublisher } = await import('../mqtt/sitePublisher.js');
     const started = () => startSitePublisher({
       config: mqttConfig,
       site: { name: config.site.name, timezone: config.site.timezone, url: config.web.public_url ?? null },
@@ -453,6 +454,7 @@ export async function startMonitor(options: StartMonitorOptions) {
   // --- reply inbox (mail.imap): a reply to an alarm mail acknowledges it ---------------------------
   let inbox: ImapWatcher | null = null;
   if (config.mail.imap) {
+    const [{ createReplyHandler }, { createImapWatcher }] = await Promise.all([import('../inbox/handleInboxMessage.js'), import('../inbox/imapWatcher.js')]);
     const replies = createReplyHandler({
       config,
       store,

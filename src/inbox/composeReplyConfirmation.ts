@@ -1,5 +1,4 @@
-import { mailPageHtml } from '../notify/mailLayout.js';
-import { escapeHtml } from '../notify/escapeHtml.js';
+import { escapeHtml, mailPageHtml } from '../notify/mailLayout.js';
 import type { OutboxMessage } from '../model/outboxMessage.js';
 
 /** What the monitor answers a verified reply with: one line per alarm the reply was about. */

@@ -4,9 +4,8 @@ import { PRIORITIES, type Condition, type Priority } from '../model/condition.js
 import type { LoopState } from '../model/loopState.js';
 import { alarmStanding, STANDING_WORDS } from '../model/alarmStanding.js';
 import { CONDITION_SHORT } from './composeNoticeMail.js';
-import { escapeHtml } from './escapeHtml.js';
 import { formatElapsed, formatSiteAndUtc, formatSiteTime } from './formatSiteTime.js';
-import { mailFooterHtml, mailFooterText, mailPageHtml, PRIORITY_HEADING } from './mailLayout.js';
+import { escapeHtml, mailFooterHtml, mailFooterText, mailPageHtml, PRIORITY_HEADING } from './mailLayout.js';
 import type { MailEnvelope, OutboxMessage } from '../model/outboxMessage.js';
 
 export const REPORT_PERIOD_MS = 86_400_000;

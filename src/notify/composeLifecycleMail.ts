@@ -1,7 +1,6 @@
 import { countOf } from '../model/plural.js';
-import { escapeHtml } from './escapeHtml.js';
 import { formatSiteAndUtc } from './formatSiteTime.js';
-import { mailFooterHtml, mailFooterText, mailPageHtml, PRIORITY_TAG } from './mailLayout.js';
+import { escapeHtml, mailFooterHtml, mailFooterText, mailPageHtml, PRIORITY_TAG } from './mailLayout.js';
 import type { MailEnvelope, OutboxMessage } from '../model/outboxMessage.js';
 
 export type LifecycleEvent = 'started' | 'stopped';

@@ -4,9 +4,8 @@ import { alarmStanding, BACK_TO_NORMAL_NEEDS_ACK, STANDING_WORDS } from '../mode
 import { checkAdvice, decoderLinkOf, type DecoderLink } from '../model/decoderLink.js';
 import { signAckToken } from './ackToken.js';
 import { signReplyToken } from './replyToken.js';
-import { escapeHtml } from './escapeHtml.js';
 import { formatElapsed, formatSiteAndUtc } from './formatSiteTime.js';
-import { mailFooterHtml, mailFooterText, mailPageHtml, PRIORITY_HEADING, PRIORITY_TAG } from './mailLayout.js';
+import { escapeHtml, mailFooterHtml, mailFooterText, mailPageHtml, PRIORITY_HEADING, PRIORITY_TAG } from './mailLayout.js';
 import type { Digest, NoticeAlarm, PendingNotice } from '../alarms/noticeTypes.js';
 import { mailbox, type NoticeSettings } from './noticeSettings.js';
 import type { OutboxMessage } from '../model/outboxMessage.js';

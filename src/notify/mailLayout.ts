@@ -1,5 +1,4 @@
 import type { Priority } from '../model/condition.js';
-import { escapeHtml } from './escapeHtml.js';
 
 /** Subject tags: the priority in words, first thing in every subject line. */
 export const PRIORITY_TAG = { alarm: '[ALARM]', trouble: '[TROUBLE]', system: '[SYSTEM]' } as const satisfies Record<Priority, string>;
@@ -32,4 +31,17 @@ export function mailPageHtml(title: string, bodyHtml: string): string {
 ${bodyHtml}
 </body></html>
 `;
+}
+
+const HTML_ESCAPES: Record<string, string> = {
+  '&': '&amp;',
+  '<': '&lt;',
+  '>': '&gt;',
+  '"': '&quot;',
+  "'": '&#39;',
+};
+
+/** Escapes text for HTML element content and quoted attribute values. Every user-supplied string goes through this. */
+export function escapeHtml(text: string): string {
+  return text.replace(/[&<>"']/g, (ch) => HTML_ESCAPES[ch]!);
 }

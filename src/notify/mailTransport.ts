@@ -1,11 +1,11 @@
 import { chmodSync, renameSync, writeFileSync, accessSync, constants as fsConstants } from 'node:fs';
 import { makePrivateDir, PRIVATE_FILE_MODE } from '../store/privateFiles.js';
-import { join, resolve } from 'node:path';
 import { format } from 'node:util';
 import type { ConnectionOptions } from 'node:tls';
 import nodemailer from 'nodemailer';
 import type { SendMailOptions } from 'nodemailer';
-import type { MailConfig } from '../config/schema.js';
+import { dirname, join, resolve } from 'node:path';
+import type { MailConfig, SiteConfig } from '../config/schema.js';
 import { NotifyError } from './notifyError.js';
 import { toMailSendError } from './mailSendError.js';
 import type { OutboxMessage } from '../model/outboxMessage.js';
@@ -166,4 +166,9 @@ export function createDropFolderTransport(dir: string): MailTransport {
     },
     close() {},
   };
+}
+
+/** Where .eml files go without SMTP: mail.drop_folder, else `outbox-mail` beside the database. Relative paths are from the working directory, like storage.path. */
+export function dropFolderFor(config: SiteConfig): string {
+  return resolve(config.mail.drop_folder ?? join(dirname(config.storage.path), 'outbox-mail'));
 }

@@ -109,8 +109,32 @@ export function sessionCounters(session: DecoderSession): DecoderCounters & { la
 type Writable<T> = { -readonly [K in keyof T]: T[K] };
 type PrivateSession = Writable<Omit<DecoderSession, 'counters'>> & { counters: Writable<DecoderCounters> };
 
+/**
+ * Field by field rather than by spread: V8 builds these literals with one fixed shape, several
+ * times faster than spreading (it is on every line). Every field is required, so one left out here
+ * does not compile.
+ */
 function privateCopy(session: DecoderSession): PrivateSession {
-  return { ...session, counters: { ...session.counters } };
+  const c = session.counters;
+  return {
+    hello: session.hello,
+    expectedSeq: session.expectedSeq,
+    lastRawTime: session.lastRawTime,
+    baseUs: session.baseUs,
+    lastDecoderUs: session.lastDecoderUs,
+    configuredLoops: session.configuredLoops,
+    counters: {
+      lines: c.lines,
+      frames: c.frames,
+      dropped: c.dropped,
+      droppedBy: c.droppedBy,
+      lost: c.lost,
+      hellos: c.hellos,
+      silentRestarts: c.silentRestarts,
+      lateFrames: c.lateFrames,
+      duplicates: c.duplicates,
+    },
+  };
 }
 
 function drop(session: PrivateSession, reason: DropReason, detail: string): DecoderEvent {

@@ -43,14 +43,15 @@ export interface SiteIndex {
   definition: SiteDefinition;
   positions: Map<string, number>;
   loopsByDecoder: Map<string, SiteLoop[]>;
-  loopByInput: Map<string, SiteLoop>;
+  /** Per decoder, its loops by input number (an array, as the lookup is on every EDGE). */
+  loopByInput: Map<string, Array<SiteLoop | undefined>>;
   silenceMs: Map<string, number>;
   inputs: Map<string, number | null>;
 }
 
 export function indexSite(definition: SiteDefinition): SiteIndex {
   const loopsByDecoder = new Map<string, SiteLoop[]>();
-  const loopByInput = new Map<string, SiteLoop>();
+  const loopByInput = new Map<string, Array<SiteLoop | undefined>>();
   const positions = new Map<string, number>();
   for (const [index, defined] of definition.loops.entries()) {
     const loop = { ...defined, index };
@@ -58,7 +59,9 @@ export function indexSite(definition: SiteDefinition): SiteIndex {
     const list = loopsByDecoder.get(loop.decoderId) ?? [];
     list.push(loop);
     loopsByDecoder.set(loop.decoderId, list);
-    loopByInput.set(`${loop.decoderId}#${loop.input}`, loop);
+    const byInput = loopByInput.get(loop.decoderId) ?? [];
+    byInput[loop.input] = loop;
+    loopByInput.set(loop.decoderId, byInput);
   }
   const silenceMs = new Map(definition.decoders.map((d) => [d.id, d.silenceMs]));
   const inputs = new Map(definition.decoders.map((d) => [d.id, d.inputs ?? null]));
@@ -89,7 +92,8 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
   let loopsCopied = false;
   const decoders = { ...state.decoders };
   let tripHolds = state.tripHolds;
-  const holdsOpenedNow = new Set<string>();
+  // Allocated on the first hold of this step: most lines open none.
+  let holdsOpenedNow: Set<string> | null = null;
   let believedUntil = state.massTripBelievedUntil;
   const setHold = (decoderId: string, hold: TripHold | null) => {
     const next = { ...tripHolds };
@@ -113,7 +117,7 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
     if ((index.loopsByDecoder.get(loop.decoderId)?.length ?? 0) < 2) return false;
     if ((believedUntil[loop.decoderId] ?? -Infinity) > nowMs) return false;
     // Stryker disable next-line ConditionalExpression: a hold opened in an earlier step already has a loop, so with this one it is never under two and is not released early
-    if (!hold) holdsOpenedNow.add(loop.decoderId);
+    if (!hold) (holdsOpenedNow ??= new Set()).add(loop.decoderId);
     setHold(loop.decoderId, {
       sinceMs: hold?.sinceMs ?? nowMs,
       loopIds: [...(hold?.loopIds ?? []), loop.id],
@@ -203,8 +207,17 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
       let decoder = decoders[input.decoderId];
       if (!decoder) break;
       const stepped = stepDecoderSession(decoder.session, input.line);
-      // One private copy per line, updated in place below and handed back (as stepLoop does).
-      decoder = { ...decoder, session: stepped.session };
+      // One private copy per line, updated in place below and handed back (as stepLoop does); field by
+      // field, as the session's own copy, because it is on every line.
+      decoder = {
+        id: decoder.id,
+        session: stepped.session,
+        lastValidAtMs: decoder.lastValidAtMs,
+        latestDecoderUs: decoder.latestDecoderUs,
+        latestHostMs: decoder.latestHostMs,
+        hostLagMs: decoder.hostLagMs,
+        offline: decoder.offline,
+      };
       const frameUs = stepped.events.some((e) => 'decoderUs' in e) ? stepped.session.lastDecoderUs : null;
       if (frameUs !== null) {
         const lagMs = nowMs - frameUs / 1000;
@@ -224,7 +237,7 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
           decoders[input.decoderId] = decoder;
           break;
         }
-        decoder = { ...decoder, hostLagMs: floorMs === null ? lagMs : Math.min(lagMs, floorMs) };
+        decoder.hostLagMs = floorMs === null ? lagMs : Math.min(lagMs, floorMs);
       }
       for (const event of stepped.events) {
         if (event.kind === 'dropped') {
@@ -251,7 +264,7 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
             feedLoops(decoder.id, () => ({ kind: 'restart' }), () => nowMs);
             break;
           case 'edge': {
-            const loop = index.loopByInput.get(`${decoder.id}#${event.input}`);
+            const loop = index.loopByInput.get(decoder.id)?.[event.input];
             effects.push({ kind: 'edge', decoderId: decoder.id, input: event.input, band: event.band, decoderUs: event.decoderUs, atMs: placeAt(event.decoderUs) });
             if (loop) feedLoop(loop, { kind: 'band', band: event.band, atUs: event.decoderUs }, placeAt);
             break;
@@ -281,7 +294,7 @@ export function stepSite(index: SiteIndex, state: SiteState, input: SiteInput, n
   }
   for (const [decoderId, hold] of Object.entries(tripHolds)) {
     // One loop tripping on its own is what a freeze looks like: it is not delayed.
-    if (holdsOpenedNow.has(decoderId) && hold.loopIds.length < 2) {
+    if ((holdsOpenedNow as Set<string> | null)?.has(decoderId) && hold.loopIds.length < 2) {
       releaseHold(decoderId, hold, false);
       continue;
     }

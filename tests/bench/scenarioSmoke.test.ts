@@ -8,6 +8,7 @@ import { run as firmware } from '../../bench/firmware.bench.js';
 import { run as ingest } from '../../bench/ingest.bench.js';
 import { SCENARIOS } from '../../bench/scenarios.js';
 import { run as soak } from '../../bench/soak.bench.js';
+import { run as serviceSoak } from '../../bench/serviceSoak.bench.js';
 import { run as store } from '../../bench/store.bench.js';
 import { run as estate } from '../../bench/estate.bench.js';
 
@@ -22,6 +23,7 @@ const scenarios: Array<[string, BenchScenario]> = [
   ['alarm-to-mail', alarmToMail],
   ['api', api],
   ['soak', soak],
+  ['service-soak', serviceSoak],
   ['estate', estate],
   ['firmware', firmware],
 ];

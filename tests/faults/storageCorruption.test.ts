@@ -7,7 +7,7 @@ import { afterEach, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/config/loadConfig.js';
 import { runMaintenance } from '../../src/daemon/runMaintenance.js';
 import { startMonitor, type Monitor } from '../../src/daemon/startMonitor.js';
-import { checkDatabase } from '../../src/ops/doctor/checkDatabase.js';
+import { checkDatabase } from '../../src/ops/doctor/runDoctor.js';
 import { dailyBackup } from '../../src/store/backup.js';
 import { openStore } from '../../src/store/openStore.js';
 import { useTempDirs } from '../helpers/tempDir.js';

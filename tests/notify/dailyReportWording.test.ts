@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { composeDailyReport, composeLifecycleMail, REPORT_DEAD_MAN_LINE, type DailyReportData, type ReportAlarm, type ReportLoop } from '../../src/notify/dailyReport.js';
+import { composeDailyReport, REPORT_DEAD_MAN_LINE, type DailyReportData, type ReportAlarm, type ReportLoop } from '../../src/notify/composeDailyReport.js';
+import { composeLifecycleMail } from '../../src/notify/composeLifecycleMail.js';
 import { counter } from './helpers/fixtures.js';
 
 /**

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { nextReportAt } from '../../src/notify/dailyReport.js';
+import { nextReportAt } from '../../src/notify/nextReportAt.js';
 import { NotifyError } from '../../src/notify/notifyError.js';
 
 const at = (iso: string) => Date.parse(iso);

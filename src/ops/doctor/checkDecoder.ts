@@ -1,8 +1,12 @@
+/**
+ * The doctor's lines for one decoder, in the order a fault would be found on site: is the device
+ * there and may this user open it (`checkDevicePort`, below), does it speak the protocol, and does
+ * its clock agree with the host's. A later line runs only when the earlier ones passed.
+ */
 import type { DecoderConfig } from '../../config/schema.js';
 import type { CheckResult } from './checkResult.js';
 import { failed, passed, warned } from './checkResult.js';
-import { checkClockDrift } from './checkClockDrift.js';
-import { checkDevicePort, MISSING_PORT_FIX, type DevicePortFs } from './checkDevicePort.js';
+import { checkClockDrift } from './clockDrift.js';
 import { OpenFailure, classifyOpenError, type OpenDecoderStream } from './decoderStream.js';
 import { judgeProtocol } from './judgeProtocol.js';
 import { listenToDecoder, type LineParser, type SetTimer } from './listenToDecoder.js';
@@ -82,4 +86,44 @@ function openFailureResult(failure: OpenFailure, name: string, port: string): Ch
     case 'other':
       return failed(name, `${port} could not be opened: ${failure.message}`, 'check decoders[].port and decoders[].baud in the config');
   }
+}
+
+export interface DevicePortFs {
+  stat(path: string): Promise<{ isCharacterDevice(): boolean; gid: number; mode: number }>;
+  /** Resolves when the current user may read and write the path. */
+  access(path: string): Promise<void>;
+  groupName(gid: number): string | null;
+  userName(): string;
+}
+
+export const MISSING_PORT_FIX =
+  'plug in the decoder\'s USB cable and check the decoder has power; `pairwatch ports` lists attached adapters; ' +
+  'a /dev/pairwatch-decoder-… name needs its line in /etc/udev/rules.d/99-pairwatch-decoder.rules';
+
+/** Does a device path exist, is it a serial (character) device, and may this user open it? */
+export async function checkDevicePort(checkName: string, path: string, fs: DevicePortFs): Promise<CheckResult> {
+  let info: Awaited<ReturnType<DevicePortFs['stat']>>;
+  try {
+    info = await fs.stat(path);
+  } catch (err) {
+    const code = (err as NodeJS.ErrnoException).code;
+    if (code === 'ENOENT' || code === 'ENOTDIR') return failed(checkName, `${path} does not exist`, MISSING_PORT_FIX);
+    return failed(checkName, `${path} cannot be looked at: ${(err as Error).message}`, 'check the path in decoders[].port');
+  }
+  if (!info.isCharacterDevice()) {
+    return failed(checkName, `${path} is not a device (a serial port is a character device)`, 'set decoders[].port to the decoder\'s serial device; `pairwatch ports` lists them');
+  }
+  const group = fs.groupName(info.gid) ?? `gid ${info.gid}`;
+  const mode = (info.mode & 0o777).toString(8).padStart(4, '0');
+  const user = fs.userName();
+  try {
+    await fs.access(path);
+  } catch {
+    return failed(
+      checkName,
+      `${path} exists (group ${group}, mode ${mode}) but user ${user} may not open it`,
+      `add the user to that group: sudo usermod -aG ${group} ${user}, then log in again (the service account gets dialout from its unit)`,
+    );
+  }
+  return passed(checkName, `${path} exists (group ${group}, mode ${mode}) and user ${user} may open it`);
 }

@@ -14,3 +14,11 @@ export const passed = (name: string, finding: string): CheckResult => ({ name, s
 export const warned = (name: string, finding: string, fix?: string): CheckResult =>
   fix === undefined ? { name, status: 'warn', finding } : { name, status: 'warn', finding, fix };
 export const failed = (name: string, finding: string, fix: string): CheckResult => ({ name, status: 'fail', finding, fix });
+
+const LABEL = { ok: 'ok  ', warn: 'warn', fail: 'FAIL' } as const satisfies Record<CheckStatus, string>;
+
+/** `ok    name: finding`, and for a problem a second, indented `fix:` line. */
+export function formatCheckResult(result: CheckResult): string {
+  const head = `${LABEL[result.status]}  ${result.name}: ${result.finding}`;
+  return result.fix ? `${head}\n      fix: ${result.fix}` : head;
+}

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { estimateClockDrift, type TimedSample } from '../../../src/ops/doctor/estimateClockDrift.js';
+import { estimateClockDrift, type TimedSample } from '../../../src/ops/doctor/clockDrift.js';
 
 /** A decoder whose clock runs `ppm` fast, heard every `everyMs` with a repeating arrival delay pattern. */
 function heard(ppm: number, count: number, everyMs: number, startDecoderUs = 1_000_000, delaysUs = [3000, 0, 7000, 1500]): TimedSample[] {

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { checkDevicePort, type DevicePortFs } from '../../../src/ops/doctor/checkDevicePort.js';
+import { checkDevicePort, type DevicePortFs } from '../../../src/ops/doctor/checkDecoder.js';
 
 function fakeFs(overrides: Partial<DevicePortFs> = {}): DevicePortFs {
   return {

@@ -1,4 +1,12 @@
+/**
+ * The decoder's clock against the host's: `estimateClockDrift` fits the decoder's µs stamps to the
+ * host's arrival times (pure arithmetic, tested on its own), and `checkClockDrift` turns the frames
+ * one doctor listen heard into the "clock drift" line with its verdict.
+ */
 import { TIME_MODULO } from '../../protocol/frame.js';
+import type { CheckResult } from './checkResult.js';
+import { passed, warned } from './checkResult.js';
+import type { ListenReport } from './listenToDecoder.js';
 
 /** One timed frame: when the host received it, and the decoder's raw 32-bit µs time in it. */
 export interface TimedSample {
@@ -65,4 +73,45 @@ export function estimateClockDrift(samples: readonly TimedSample[], options: Dri
     spanMs: hostSpanUs / 1000,
     samples: samples.length,
   };
+}
+
+export interface DriftCheckOptions extends DriftOptions {
+  checkName: string;
+  /**
+   * Drift beyond this is reported. A quartz-timed decoder is normally within about ±100 ppm
+   * (common practice, value from memory); 1000 ppm (0.1 %) leaves room for that and for the host,
+   * yet is far below what would matter to pulse classification (intervals are judged to ±50 %).
+   */
+  warnPpm?: number;
+}
+
+/** Compares the decoder's µs clock across the frames heard with the host's monotonic clock. */
+export function checkClockDrift(report: ListenReport, options: DriftCheckOptions): CheckResult {
+  const warnPpm = options.warnPpm ?? 1000;
+  // Only frames of the last decoder session: a HELLO restarts the decoder's clock.
+  let samples: TimedSample[] = [];
+  for (const line of report.lines) {
+    if (!line.outcome.ok) continue;
+    const frame = line.outcome.frame;
+    if (frame.type === 'HELLO') samples = [];
+    else samples.push({ hostUs: line.hostUs, decoderTime: frame.time });
+  }
+  const estimate = estimateClockDrift(samples, options);
+  if ('reason' in estimate) {
+    return warned(options.checkName, `not measured: ${estimate.reason}`, 'listen longer, e.g. `pairwatch doctor --listen 20`');
+  }
+  const measured = `${formatPpm(estimate.ppm)} ± ${Math.round(estimate.uncertaintyPpm)} ppm over ${(estimate.spanMs / 1000).toFixed(1)} s, ${estimate.samples} frames`;
+  if (Math.abs(estimate.ppm) <= Math.max(warnPpm, estimate.uncertaintyPpm)) {
+    return passed(options.checkName, `decoder clock agrees with the host (${measured})`);
+  }
+  return warned(
+    options.checkName,
+    `decoder clock runs ${estimate.ppm > 0 ? 'fast' : 'slow'} against the host (${measured})`,
+    'check that the host clock is synchronised (see "clock sync"); if it is, the decoder\'s own clock is off and pulse periods it reports are off by the same share',
+  );
+}
+
+function formatPpm(ppm: number): string {
+  const rounded = Math.round(ppm);
+  return `${rounded > 0 ? '+' : ''}${rounded} ppm`;
 }
