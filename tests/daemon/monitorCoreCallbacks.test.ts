@@ -1,15 +1,9 @@
-import Database from 'better-sqlite3';
-import { join } from 'node:path';
-import pino from 'pino';
 import { afterEach, describe, expect, it } from 'vitest';
-import type { AlarmEffect, AlarmRecord } from '../../src/alarms/alarmTypes.js';
-import { parseConfig } from '../../src/config/loadConfig.js';
-import { createMonitorCore, type MonitorCore, type MonitorCoreOptions } from '../../src/daemon/monitorCore.js';
+import type { AlarmRecord } from '../../src/alarms/alarmTypes.js';
+import type { MonitorCore, MonitorCoreOptions } from '../../src/daemon/monitorCore.js';
 import type { NotifyEffect } from '../../src/notify/noticeQueue.js';
-import { createDurableWriter, type DurableWriter } from '../../src/store/createDurableWriter.js';
-import { openStore, type Store } from '../../src/store/openStore.js';
-import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
 import { wireScript } from '../helpers/wireScript.js';
+import { createCoreRig, T0 } from './fixtures/coreRig.js';
 
 /**
  * What monitorCore tells the rest of the daemon, and when: the board's change callbacks (exactly when
@@ -18,87 +12,11 @@ import { wireScript } from '../helpers/wireScript.js';
  * transaction, several actions in one commit, and — while the disk fails — which notices go to the
  * direct mailer and what the writer holds under which label (what a stop with a failing disk reports).
  */
-const T0 = Date.UTC(2026, 0, 15, 2, 0, 0);
 const MIN = 60_000;
 
-let tmp: TempDir | undefined;
-const stores: Store[] = [];
-afterEach(() => {
-  for (const s of stores.splice(0)) s.close();
-  tmp?.cleanup();
-  tmp = undefined;
-});
-
-interface StartOptions {
-  diskFull?: () => boolean;
-  maxQueued?: number;
-  directNotices?: MonitorCoreOptions['directNotices'];
-  withCallbacks?: boolean;
-}
-
-function start(options: StartOptions = {}) {
-  tmp = makeTempDir('pw-core-callbacks-');
-  const path = join(tmp.dir, 'site.db');
-  const config = parseConfig(`
-site: { name: "Test Farm" }
-decoders: [{ id: main, port: /dev/null, inputs: 2 }]
-loops: [{ id: well-pit, name: "Well pit", decoder: main, input: 1 }, { id: barn, name: "Barn", decoder: main, input: 2 }]
-contacts: [{ id: office, name: Office, email: office@example.org }]
-escalation: { default: { steps: [{ after: 0m, notify: [office] }], repeat_every: 30m, max_repeats: 10 } }
-mail: { from: "m <m@example.org>", group_window: 10s }
-storage: { path: ${path} }
-`);
-  let clock = T0;
-  const real = openStore({ path });
-  stores.push(real);
-  const diskFull = options.diskFull;
-  const store: Store = diskFull
-    ? {
-        ...real,
-        transaction: (fn) => {
-          if (diskFull()) throw Object.assign(new Error('database or disk is full'), { code: 'SQLITE_FULL' });
-          return real.transaction(fn);
-        },
-      }
-    : real;
-  const rejected: string[] = [];
-  const writer: DurableWriter = createDurableWriter({
-    store,
-    onFailing() {},
-    onRecovered() {},
-    onRejected: (label, error) => rejected.push(`${label}: ${String(error)}`),
-    now: () => clock,
-    retryMs: 1e12,
-    ...(options.maxQueued !== undefined && { maxQueued: options.maxQueued }),
-  });
-  const changes: string[] = [];
-  const effectCalls: AlarmEffect[][] = [];
-  const core: MonitorCore = createMonitorCore({
-    config,
-    store,
-    writer,
-    logger: pino({ level: 'silent' }),
-    now: clock,
-    ...(options.withCallbacks !== false && {
-      onChange: (what: 'loops' | 'alarms') => changes.push(what),
-      onAlarmEffects: (_s: Store, effects: readonly AlarmEffect[]) => effectCalls.push([...effects]),
-    }),
-    ...(options.directNotices && { directNotices: options.directNotices }),
-  });
-  const feedOne = ({ atUs, line }: { atUs: number; line: string }) => {
-    clock = T0 + Math.round(atUs / 1000);
-    core.line('main', line, clock);
-  };
-  const read = <T>(sql: string, ...args: unknown[]): T[] => {
-    const db = new Database(path, { readonly: true });
-    try {
-      return db.prepare(sql).all(...args) as T[];
-    } finally {
-      db.close();
-    }
-  };
-  return { core, writer, real, feedOne, feed: (lines: Array<{ atUs: number; line: string }>) => lines.forEach(feedOne), read, rejected, changes, effectCalls, at: () => clock, set: (ms: number) => (clock = ms) };
-}
+const rig = createCoreRig('pw-core-callbacks-');
+const { start, stores } = rig;
+afterEach(() => rig.cleanup());
 
 /** well-pit stops pulsing at 2.1 s (tripped at 3.1 s, seen on the TICK at 3.2 s), barn pulses on. */
 const tripScript = () => wireScript(2).hello(0).pulses(1, 100_000, 2_100_000).pulses(2, 100_000, 10_000_000).ticks(0, 4_000_000).build();
@@ -179,8 +97,7 @@ describe('the board is told exactly when something changed', () => {
     m.core.alarmAction({ kind: 'out-of-service', loopId: 'barn', actor: 'ann', note: 'roof work' }, m.at());
     m.core.alarmAction({ kind: 'return-to-service', loopId: 'barn', actor: 'ann', note: null }, m.at());
     expect(m.changes).toEqual(['alarms', 'loops', 'alarms', 'loops']);
-    stores.splice(0).forEach((s) => s.close());
-    tmp?.cleanup();
+    rig.cleanup();
 
     const quiet = start({ withCallbacks: false });
     expect(() => {

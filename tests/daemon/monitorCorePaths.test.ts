@@ -1,17 +1,7 @@
-import Database from 'better-sqlite3';
-import { join } from 'node:path';
-import { Writable } from 'node:stream';
-import pino from 'pino';
 import { afterEach, describe, expect, it } from 'vitest';
-import type { AlarmEffect, AlarmRecord } from '../../src/alarms/alarmTypes.js';
-import { parseConfig } from '../../src/config/loadConfig.js';
-import { createMonitorCore, type MonitorCore, type MonitorCoreOptions } from '../../src/daemon/monitorCore.js';
-import type { NotifyEffect } from '../../src/notify/noticeQueue.js';
 import { encodeLine } from '../../src/protocol/encodeLine.js';
-import { createDurableWriter, type DurableWriter } from '../../src/store/createDurableWriter.js';
-import { openStore, type Store } from '../../src/store/openStore.js';
-import { makeTempDir, type TempDir } from '../helpers/tempDir.js';
 import { wireScript } from '../helpers/wireScript.js';
+import { createCoreRig, T0 } from './fixtures/coreRig.js';
 
 /**
  * monitorCore's remaining paths, each read back the way a user meets it: rows through a second
@@ -19,103 +9,11 @@ import { wireScript } from '../helpers/wireScript.js';
  * disk fails (its labels are what a stop with a failing disk reports). Fake time throughout: host time
  * is T0 plus the decoder time of each line unless a test moves it on its own.
  */
-const T0 = Date.UTC(2026, 0, 15, 2, 0, 0);
 const MIN = 60_000;
 
-let tmp: TempDir | undefined;
-const stores: Store[] = [];
-afterEach(() => {
-  for (const s of stores.splice(0)) s.close();
-  tmp?.cleanup();
-  tmp = undefined;
-});
-
-const LOOPS = '{ id: well-pit, name: "Well pit", decoder: main, input: 1 }, { id: barn, name: "Barn", decoder: main, input: 2 }';
-const SITE = (dir: string, decoders = '[{ id: main, port: /dev/null, inputs: 2 }]', extraLoops = '') => `
-site: { name: "Test Farm" }
-decoders: ${decoders}
-loops: [${LOOPS}${extraLoops}]
-contacts: [{ id: office, name: Office, email: office@example.org }]
-escalation: { default: { steps: [{ after: 0m, notify: [office] }], repeat_every: 30m, max_repeats: 10 } }
-mail: { from: "m <m@example.org>", group_window: 10s }
-storage: { path: ${join(dir, 'site.db')} }
-`;
-
-interface StartOptions {
-  decoders?: string;
-  extraLoops?: string;
-  /** A disk that refuses every transaction while this returns true. */
-  diskFull?: () => boolean;
-  maxQueued?: number;
-  directNotices?: MonitorCoreOptions['directNotices'];
-  withCallbacks?: boolean;
-}
-
-function start(options: StartOptions = {}) {
-  tmp ??= makeTempDir('pw-core-paths-');
-  const dir = tmp.dir;
-  const config = parseConfig(SITE(dir, options.decoders, options.extraLoops));
-  let clock = T0;
-  const real = openStore({ path: join(dir, 'site.db') });
-  stores.push(real);
-  const diskFull = options.diskFull;
-  const store: Store = diskFull
-    ? {
-        ...real,
-        transaction: (fn) => {
-          if (diskFull()) throw Object.assign(new Error('database or disk is full'), { code: 'SQLITE_FULL' });
-          return real.transaction(fn);
-        },
-      }
-    : real;
-  const records: Array<Record<string, unknown>> = [];
-  const sink = new Writable({
-    write(chunk: Buffer, _enc, done) {
-      for (const line of chunk.toString('utf8').split('\n')) if (line.trim()) records.push(JSON.parse(line) as Record<string, unknown>);
-      done();
-    },
-  });
-  const rejected: string[] = [];
-  const writer: DurableWriter = createDurableWriter({
-    store,
-    onFailing() {},
-    onRecovered() {},
-    onRejected: (label, error) => rejected.push(`${label}: ${String(error)}`),
-    now: () => clock,
-    retryMs: 1e12,
-    ...(options.maxQueued !== undefined && { maxQueued: options.maxQueued }),
-  });
-  const changes: string[] = [];
-  const effectCalls: AlarmEffect[][] = [];
-  const core: MonitorCore = createMonitorCore({
-    config,
-    store,
-    writer,
-    logger: pino({ level: 'debug' }, sink),
-    now: clock,
-    ...(options.withCallbacks !== false && {
-      onChange: (what: 'loops' | 'alarms') => changes.push(what),
-      onAlarmEffects: (_s: Store, effects: readonly AlarmEffect[]) => effectCalls.push([...effects]),
-    }),
-    ...(options.directNotices && { directNotices: options.directNotices }),
-  });
-  const feed = (lines: Array<{ atUs: number; line: string }>) => {
-    for (const { atUs, line } of lines) {
-      clock = T0 + Math.round(atUs / 1000);
-      core.line('main', line, clock);
-    }
-  };
-  const read = <T>(sql: string, ...args: unknown[]): T[] => {
-    const db = new Database(join(dir, 'site.db'), { readonly: true });
-    try {
-      return db.prepare(sql).all(...args) as T[];
-    } finally {
-      db.close();
-    }
-  };
-  const logs = (pattern: RegExp) => records.filter((r) => typeof r.msg === 'string' && pattern.test(r.msg));
-  return { core, writer, real, feed, read, logs, records, rejected, changes, effectCalls, at: () => clock, set: (ms: number) => (clock = ms) };
-}
+const rig = createCoreRig('pw-core-paths-');
+const { start, stores } = rig;
+afterEach(() => rig.cleanup());
 
 const line = (body: string) => encodeLine(body).replace(/\n$/, '');
 /** Both loops pulsing from 0.1 s until `untilUs`, ticks every 200 ms to `ticksUs`. */
@@ -248,9 +146,7 @@ describe('what the journal says about the decoder', () => {
     matching.feed(wireScript(2).hello(0).build());
     expect(matching.logs(/^decoder main started/)).toHaveLength(1);
     expect(matching.logs(/loops but the config says/)).toEqual([]);
-    stores.splice(0).forEach((s) => s.close());
-    tmp?.cleanup();
-    tmp = undefined;
+    rig.cleanup();
 
     const unset = start({ decoders: '[{ id: main, port: /dev/null }]' });
     unset.core.linkStatus('main', { state: 'connected' }, T0);
@@ -427,9 +323,7 @@ describe('the minute roll-up', () => {
     const a = minuteRig();
     a.minute(225, 25); // 25 / 250 = 10 %
     expect(a.noisyNow()).toBe(1);
-    stores.splice(0).forEach((s) => s.close());
-    tmp?.cleanup();
-    tmp = undefined;
+    rig.cleanup();
     const b = minuteRig();
     b.minute(200, 22); // 22 / 222 ≈ 9.9 %
     expect(b.noisyNow()).toBe(0);
