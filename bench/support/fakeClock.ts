@@ -26,6 +26,8 @@ interface Entry {
   id: number;
   at: number;
   seq: number;
+  /** The delay it was set with; a timeout's refresh() waits it again. */
+  delayMs: number;
   repeatMs: number | null;
   fn: (...args: unknown[]) => void;
   args: unknown[];
@@ -51,7 +53,7 @@ export function installFakeClock(startMs: number): FakeClock {
     },
     hasRef: () => entry.refed,
     refresh() {
-      entry.at = current + Math.max(1, entry.repeatMs ?? 1);
+      entry.at = current + entry.delayMs;
       return this;
     },
     [Symbol.toPrimitive]: () => entry.id,
@@ -59,7 +61,7 @@ export function installFakeClock(startMs: number): FakeClock {
   });
   const schedule = (fn: (...args: unknown[]) => void, delay: unknown, args: unknown[], repeat: boolean) => {
     const ms = Math.max(1, Number(delay) || 0);
-    const entry: Entry = { id: nextId++, at: current + ms, seq: seq++, repeatMs: repeat ? ms : null, fn, args, refed: true };
+    const entry: Entry = { id: nextId++, at: current + ms, seq: seq++, delayMs: ms, repeatMs: repeat ? ms : null, fn, args, refed: true };
     entries.set(entry.id, entry);
     return handleOf(entry);
   };

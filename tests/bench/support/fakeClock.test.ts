@@ -69,4 +69,16 @@ describe('the bench fake clock', () => {
     await clock.advanceTo(100);
     expect(fired).toBe(1);
   });
+
+  it('refresh() starts a timeout\'s delay again from now, as Node\'s Timeout.refresh does', async () => {
+    clock = installFakeClock(0);
+    const fired: number[] = [];
+    const handle = setTimeout(() => fired.push(Date.now()), 300) as unknown as NodeJS.Timeout;
+    await clock.advanceTo(200);
+    handle.refresh();
+    await clock.advanceTo(499);
+    expect(fired).toEqual([]);
+    await clock.advanceTo(500);
+    expect(fired).toEqual([500]);
+  });
 });
