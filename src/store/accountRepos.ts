@@ -261,11 +261,16 @@ interface TokenStatements {
   findByName: Statement;
   revoke: Statement;
   list: Statement;
-  /** This connection's writes and other connections' commits, as one text: any change of it may be a revoke. */
-  changeStamp: Statement;
-  /** Live tokens found since the stamp last moved (only hits: a flood of bad tokens must not grow it). */
+  /** This connection's own writes so far; reads no table, so it costs no read transaction. */
+  ownWrites: Statement;
+  /** Moves when another connection commits; asking starts a read transaction, the costly part of a lookup. */
+  otherCommits: Statement;
+  /** Live tokens found since either count last moved (only hits: a flood of bad tokens must not grow it). */
   live: Map<string, ApiTokenSummary>;
-  liveAtStamp: string;
+  liveAtOwnWrites: number;
+  liveAtOtherCommits: number;
+  /** When other connections' commits were last asked about (the caller's monotonic ms). */
+  otherCommitsAskedAt: number;
 }
 const apiTokenCache = new WeakMap<BetterSqlite3.Database, TokenStatements>();
 
@@ -279,11 +284,14 @@ function apiTokenStatements(db: BetterSqlite3.Database): TokenStatements {
       findByName: db.prepare('SELECT id, name, role, created_at, revoked_at FROM api_tokens WHERE name = ?'),
       revoke: db.prepare('UPDATE api_tokens SET revoked_at = ? WHERE name = ? AND revoked_at IS NULL'),
       list: db.prepare('SELECT id, name, role, created_at, revoked_at FROM api_tokens ORDER BY name'),
-      // data_version moves when another connection commits (sqlite.org/pragma.html#pragma_data_version);
-      // total_changes() counts this connection's own writes (sqlite.org/lang_corefunc.html#total_changes).
-      changeStamp: db.prepare(`SELECT data_version || ':' || total_changes() FROM pragma_data_version`).pluck(),
+      // total_changes() counts this connection's own writes (sqlite.org/lang_corefunc.html#total_changes);
+      // data_version moves when another connection commits (sqlite.org/pragma.html#pragma_data_version).
+      ownWrites: db.prepare('SELECT total_changes()').pluck(),
+      otherCommits: db.prepare('PRAGMA data_version').pluck(),
       live: new Map(),
-      liveAtStamp: '',
+      liveAtOwnWrites: -1,
+      liveAtOtherCommits: -1,
+      otherCommitsAskedAt: Number.NEGATIVE_INFINITY,
     };
     apiTokenCache.set(db, s);
   }
@@ -301,16 +309,34 @@ export function insertApiToken(
 }
 
 /**
- * The live token with this hash, or null. Runs on every API request, so a token found is remembered
- * until anything at all is written to the database — by this process (the API or the monitor) or by
- * another (`pairwatch token revoke` from the shell) — and a revoke works from the next request on.
+ * How often a caller on a hot path lets the lookup ask about other connections' commits: at most once
+ * every `everyMs` of its monotonic clock, `at` being now on that clock.
  */
-export function findLiveApiTokenByHash(db: BetterSqlite3.Database, tokenHash: string): ApiTokenSummary | null {
+export interface OtherCommitsCheck {
+  at: number;
+  everyMs: number;
+}
+
+/**
+ * The live token with this hash, or null. Runs on every API request, so a token found is remembered
+ * until anything at all is written to the database. A write on this connection (the API, the monitor,
+ * any statement) is seen by the very next lookup. So is another process's commit (`pairwatch token
+ * revoke` from the shell) — unless the caller passes `otherCommits`, which lets a lookup within
+ * `everyMs` of the last one that asked skip the question, because asking costs a read transaction.
+ */
+export function findLiveApiTokenByHash(db: BetterSqlite3.Database, tokenHash: string, otherCommits?: OtherCommitsCheck): ApiTokenSummary | null {
   const s = apiTokenStatements(db);
-  const stamp = s.changeStamp.get() as string;
-  if (stamp !== s.liveAtStamp) {
+  const ownWrites = s.ownWrites.get() as number;
+  let otherCommitCount = s.liveAtOtherCommits;
+  const due = !otherCommits || otherCommits.at < s.otherCommitsAskedAt || otherCommits.at - s.otherCommitsAskedAt >= otherCommits.everyMs;
+  if (due) {
+    otherCommitCount = s.otherCommits.get() as number;
+    if (otherCommits) s.otherCommitsAskedAt = otherCommits.at;
+  }
+  if (ownWrites !== s.liveAtOwnWrites || otherCommitCount !== s.liveAtOtherCommits) {
     s.live.clear();
-    s.liveAtStamp = stamp;
+    s.liveAtOwnWrites = ownWrites;
+    s.liveAtOtherCommits = otherCommitCount;
   }
   const known = s.live.get(tokenHash);
   if (known) return known;

@@ -20,6 +20,8 @@ export interface WebContext {
   live: WebLiveFeed;
   ackLinks: AckLinkPort;
   now: () => number;
+  /** A monotonic clock in ms (performance.now()): paces the auth lookup's questions to the database. */
+  monotonicNow: () => number;
   log: WebLogger;
   /** Served over TLS by this process (cookies Secure, HSTS). */
   tls: boolean;

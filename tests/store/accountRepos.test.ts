@@ -70,6 +70,43 @@ describe('apiTokenRepo', () => {
     expect(findLiveApiTokenByHash(db, 'h1')).toBeNull();
   });
 
+  // A caller on a hot path may pace the question about other connections' commits; this is the bound it
+  // then keeps: a revoke from another process is seen once `everyMs` has passed on the caller's clock.
+  it('paced by the caller, another process\'s revoke is seen as soon as everyMs has passed', () => {
+    insertApiToken(db, { name: 'station', tokenHash: 'h1', role: 'operator', createdAt: T });
+    const paced = (at: number) => findLiveApiTokenByHash(db, 'h1', { at, everyMs: 1 });
+    expect(paced(100)?.role).toBe('operator');
+    const shell = new Database(join(tmp.dir, 'site.db'));
+    try {
+      expect(revokeApiToken(shell, 'station', T + 5)).toBe(true);
+    } finally {
+      shell.close();
+    }
+    // Within the millisecond the repo does not ask again (that is the saving)...
+    expect(paced(100.5)?.role).toBe('operator');
+    // ...and from the next one on it does.
+    expect(paced(101)).toBeNull();
+  });
+
+  it('paced by the caller, a clock that went back asks again rather than trusting the old answer', () => {
+    insertApiToken(db, { name: 'station', tokenHash: 'h1', role: 'operator', createdAt: T });
+    expect(findLiveApiTokenByHash(db, 'h1', { at: 100, everyMs: 1 })?.role).toBe('operator');
+    const shell = new Database(join(tmp.dir, 'site.db'));
+    try {
+      revokeApiToken(shell, 'station', T + 5);
+    } finally {
+      shell.close();
+    }
+    expect(findLiveApiTokenByHash(db, 'h1', { at: 50, everyMs: 1 })).toBeNull();
+  });
+
+  it('paced by the caller, a write on this connection is still seen by the very next lookup', () => {
+    insertApiToken(db, { name: 'station', tokenHash: 'h1', role: 'operator', createdAt: T });
+    expect(findLiveApiTokenByHash(db, 'h1', { at: 100, everyMs: 1 })?.role).toBe('operator');
+    db.prepare('UPDATE api_tokens SET revoked_at = ? WHERE name = ?').run(new Date(T + 5).toISOString(), 'station');
+    expect(findLiveApiTokenByHash(db, 'h1', { at: 100, everyMs: 1 })).toBeNull();
+  });
+
   it('a change made by hand on another connection (not through the repo) is seen too', () => {
     insertApiToken(db, { name: 'station', tokenHash: 'h1', role: 'operator', createdAt: T });
     expect(findLiveApiTokenByHash(db, 'h1')?.role).toBe('operator');

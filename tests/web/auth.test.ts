@@ -1,5 +1,7 @@
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import Database from 'better-sqlite3';
 import { listLoginFailures, revokeApiToken } from '../../src/store/accountRepos.js';
+import { OTHER_COMMITS_EVERY_MS } from '../../src/web/auth/resolvePrincipal.js';
 import { cookieFrom, form, session, signIn, startTestWeb, USERS, type TestWeb } from './fixtures/testWeb.js';
 
 let web: TestWeb;
@@ -74,6 +76,19 @@ describe('API authentication', () => {
     revokeApiToken(web.db, 'script-viewer', web.clock.now);
     const res = await web.app.inject({ method: 'GET', url: '/api/v1/loops', headers: { authorization: `Bearer ${web.tokens.viewer}` } });
     expect(res.statusCode).toBe(401);
+  });
+
+  it('a token revoked from another process (the shell) stops working for requests 1 ms after the commit', async () => {
+    const viewer = { authorization: `Bearer ${web.tokens.viewer}` };
+    expect((await web.app.inject({ method: 'GET', url: '/api/v1/loops', headers: viewer })).statusCode).toBe(200);
+    const shell = new Database(web.dbPath);
+    try {
+      expect(revokeApiToken(shell, 'script-viewer', web.clock.now)).toBe(true);
+    } finally {
+      shell.close();
+    }
+    web.clock.monotonic += OTHER_COMMITS_EVERY_MS;
+    expect((await web.app.inject({ method: 'GET', url: '/api/v1/loops', headers: viewer })).statusCode).toBe(401);
   });
 
   it('a session cookie works for API reads', async () => {
