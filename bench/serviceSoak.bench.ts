@@ -1,5 +1,5 @@
 import { fork, type ChildProcess } from 'node:child_process';
-import { existsSync, readdirSync, statSync } from 'node:fs';
+import { existsSync, readdirSync, readFileSync, statSync } from 'node:fs';
 import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
 import { findPackageRoot } from '../src/store/openDatabase.js';
@@ -31,8 +31,6 @@ const DAY_MS = 86_400_000;
 const STEP_MS = 1000;
 const POLL_EVERY_MS = 600_000;
 const START_MS = Date.UTC(2031, 2, 3, 0, 0, 0);
-/** The systemd unit's flags (deploy/pairwatch.service). */
-const UNIT_FLAGS = ['--max-semi-space-size=2'];
 const GOAL_UNIT_MB = 100;
 const GOAL_DEFAULT_MB = 120;
 const FLAT_GROWTH = 0.1;
@@ -40,16 +38,15 @@ const FLAT_GROWTH = 0.1;
 export async function run(opts: BenchOptions): Promise<BenchResult> {
   // Smoke: ten simulated minutes with the unit's flags only, to prove the harness works.
   const durationMs = opts.smoke ? 600_000 : 2 * DAY_MS;
-  const variants: Array<{ label: string; flags: string[]; goalMb: number }> = opts.smoke
-    ? [{ label: "the unit's flags", flags: UNIT_FLAGS, goalMb: GOAL_UNIT_MB }]
-    : [
-        { label: "the unit's flags", flags: UNIT_FLAGS, goalMb: GOAL_UNIT_MB },
-        { label: "Node's defaults", flags: [], goalMb: GOAL_DEFAULT_MB },
-      ];
+  const unit = unitRuntime();
+  const asUnit = { label: "the unit's flags", flags: unit.flags, env: unit.env, goalMb: GOAL_UNIT_MB };
+  const variants: Array<{ label: string; flags: string[]; env: Record<string, string>; goalMb: number }> = opts.smoke
+    ? [asUnit]
+    : [asUnit, { label: "Node's defaults", flags: [], env: {}, goalMb: GOAL_DEFAULT_MB }];
   const rows: BenchRow[] = [];
   const notes: string[] = [];
   // The variants run side by side (each its own child, pty and database): CPU figures are per child.
-  const outcomes = await Promise.all(variants.map((variant) => soakService(durationMs, variant.flags)));
+  const outcomes = await Promise.all(variants.map((variant) => soakService(durationMs, variant.flags, variant.env)));
   for (const [i, variant] of variants.entries()) {
     const outcome = outcomes[i]!;
     const days = durationMs / DAY_MS;
@@ -71,7 +68,7 @@ export async function run(opts: BenchOptions): Promise<BenchResult> {
       infoRow(`${variant.label}: CPU of the daemon per simulated day`, outcome.cpuS / days, 's'),
     );
     notes.push(
-      `${variant.label} (${variant.flags.join(' ') || 'no flags'}): ${outcome.lines.toLocaleString('en-GB')} lines over ${(durationMs / 3_600_000).toFixed(1)} simulated hours in ${outcome.wallS.toFixed(0)} s of wall time; ` +
+      `${variant.label} (${[...Object.entries(variant.env).map(([k, v]) => `${k}=${v}`), ...variant.flags].join(' ') || 'no flags'}): ${outcome.lines.toLocaleString('en-GB')} lines over ${(durationMs / 3_600_000).toFixed(1)} simulated hours in ${outcome.wallS.toFixed(0)} s of wall time; ` +
         `${outcome.polls} API polls (all 200: ${outcome.pollsOk === outcome.polls ? 'yes' : `no, ${outcome.polls - outcome.pollsOk} not`}), ${outcome.acked} alarms acknowledged through the API, ${outcome.mails} mail files written, database file ${outcome.dbMb.toFixed(1)} MB at the end.`,
     );
   }
@@ -99,8 +96,31 @@ export interface SoakOutcome {
   dbMb: number;
 }
 
-/** One soak of the real daemon for `durationMs` of simulated time, with `flags` for its Node. */
-export async function soakService(durationMs: number, flags: string[]): Promise<SoakOutcome> {
+/**
+ * The Node flags and environment the systemd unit gives the daemon, read from deploy/pairwatch.service
+ * itself so the "unit" variant cannot drift from what is installed: the words between the node binary
+ * and the script in ExecStart, and every Environment= assignment.
+ */
+export function unitRuntime(unitText = readFileSync(join(findPackageRoot(), 'deploy', 'pairwatch.service'), 'utf8')): {
+  flags: string[];
+  env: Record<string, string>;
+} {
+  const exec = /^ExecStart=(\S+)\s+(.*)$/m.exec(unitText);
+  if (!exec) throw new BenchError('PW_BENCH_UNIT', 'deploy/pairwatch.service has no ExecStart line');
+  const words = exec[2]!.split(/\s+/);
+  const script = words.findIndex((word) => !word.startsWith('-'));
+  const env: Record<string, string> = {};
+  for (const line of unitText.matchAll(/^Environment=(.*)$/gm)) {
+    for (const assignment of line[1]!.split(/\s+/).filter(Boolean)) {
+      const eq = assignment.indexOf('=');
+      if (eq > 0) env[assignment.slice(0, eq)] = assignment.slice(eq + 1);
+    }
+  }
+  return { flags: words.slice(0, script < 0 ? words.length : script), env };
+}
+
+/** One soak of the real daemon for `durationMs` of simulated time, with `flags` and `env` for its Node. */
+export async function soakService(durationMs: number, flags: string[], env: Record<string, string> = {}): Promise<SoakOutcome> {
   const folder = makeTempFolder('service-soak');
   const pty = await openPtyPair(folder.dir);
   let child: ChildProcess | null = null;
@@ -119,7 +139,7 @@ export async function soakService(durationMs: number, flags: string[]): Promise<
     const operator = grantApiToken(config.storage.path, START_MS, 'operator');
     const script = join(findPackageRoot(), 'dist', 'bench', 'support', 'serviceSoakChild.js');
     if (!existsSync(script)) throw new BenchError('PW_BENCH_NOT_BUILT', `${script} is missing: build first (npx tsc -p tsconfig.json)`);
-    child = fork(script, [], { execArgv: [...flags, '--expose-gc'], stdio: ['ignore', 'ignore', 'pipe', 'ipc'] });
+    child = fork(script, [], { execArgv: [...flags, '--expose-gc'], env: { ...process.env, ...env }, stdio: ['ignore', 'ignore', 'pipe', 'ipc'] });
     let stderr = '';
     child.stderr!.on('data', (chunk: Buffer) => {
       stderr = (stderr + chunk.toString()).slice(-4000);

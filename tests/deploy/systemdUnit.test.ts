@@ -63,6 +63,8 @@ describe('deploy/pairwatch.service', () => {
     const service = unit.get('Service')!;
     const one = (key: string) => service.get(key)?.[0];
     expect(one('ExecStart')).toBe('/usr/bin/node --max-semi-space-size=2 /opt/pairwatch/dist/src/cli/main.js run --config /etc/pairwatch/site.yaml');
+    // glibc's per-thread arenas capped (glibc manual, "Memory Allocation Tunables": MALLOC_ARENA_MAX).
+    expect(service.get('Environment')).toContain('MALLOC_ARENA_MAX=2');
     expect(one('User')).toBe('pairwatch');
     expect(one('SupplementaryGroups')).toBe('dialout');
     expect(one('Restart')).toBe('on-failure');
