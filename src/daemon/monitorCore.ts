@@ -12,7 +12,7 @@ import { sessionCounters } from '../protocol/decoderSession.js';
 import { alarmInputsFor, loopsById, raiseFor, type LoopsById } from '../site/alarmInputsFor.js';
 import { DECODER_CLOCK_AHEAD_MS, indexSite, initialSiteState, stepSite, takeSiteQuality, type SiteIndex } from '../site/siteStep.js';
 import type { SiteEffect, SiteInput, SiteState } from '../site/siteTypes.js';
-import type { DurableWriter } from '../store/createDurableWriter.js';
+import type { CommitOutcome, DurableWriter } from '../store/createDurableWriter.js';
 import type { EdgeRow } from '../store/edgeRepo.js';
 import type { Store } from '../store/openStore.js';
 import { recordRecipient } from '../store/alarmRepo.js';
@@ -145,7 +145,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
    * before the commit when storage is known to fail, and after it when this very commit found out.
    * "Storage failing" itself is left out: its own alert already goes straight to the transport.
    */
-  function commitAlarmWork(label: string, effects: readonly AlarmEffect[], now: number, work: (s: Store) => void): void {
+  function commitAlarmWork(label: string, effects: readonly AlarmEffect[], now: number, work: (s: Store) => void): CommitOutcome {
     const direct = options.directNotices;
     const claim = () => {
       if (!direct) return;
@@ -160,6 +160,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
     if (writer.status().failing !== null) claim();
     const outcome = writer.commit(label, work);
     if (outcome === 'queued') claim();
+    return outcome;
   }
 
   function alarmRecordFor(effects: readonly AlarmEffect[], notice: NotifyEffect): AlarmRecord | null {
@@ -312,17 +313,31 @@ export function createMonitorCore(options: MonitorCoreOptions) {
    * `alsoInTransaction` runs inside the same commit, only for an accepted action (an acknowledge link is
    * spent this way, so a refused acknowledgement leaves it usable).
    */
-  function alarmAction(input: AlarmInput, now: number, alsoInTransaction?: () => void): AlarmStepResult {
+  function alarmAction(input: AlarmInput, now: number, alsoInTransaction?: () => void): AlarmActionResult {
+    const bookBefore = book;
     const [result] = runAlarms([input], now).results;
     // Stryker disable next-line ObjectLiteral,ArrayDeclaration: runAlarms gives one result per input, so the fallback is never built
     if (!result || result.error) return result ?? { book, effects: [] };
-    commitAlarmWork(`alarm ${input.kind}`, result.effects, now, (s) => {
-      alsoInTransaction?.();
+    let refusedBy: unknown = null;
+    const outcome = commitAlarmWork(`alarm ${input.kind}`, result.effects, now, (s) => {
+      try {
+        alsoInTransaction?.();
+      } catch (error) {
+        refusedBy = error;
+        throw error;
+      }
       if (input.kind === 'out-of-service' || input.kind === 'return-to-service') {
         s.loopStatus.setService(input.loopId, input.kind === 'return-to-service', input.note, input.actor, now);
       }
       applyAlarmEffects(s, result.effects, now);
     });
+    if (outcome === 'rejected') {
+      // The transaction rolled back (not a disk fault: the caller's own step or a bad row threw), so the
+      // action has not happened: memory goes back to what the disk holds, and the caller is told.
+      book = bookBefore;
+      version += 1;
+      return { book, effects: [], error: notRecorded(refusedBy) };
+    }
     logAlarmEffects(result.effects);
     options.onChange?.('alarms');
     if (input.kind === 'out-of-service' || input.kind === 'return-to-service') options.onChange?.('loops');
@@ -334,12 +349,19 @@ export function createMonitorCore(options: MonitorCoreOptions) {
    * commit together with the spent token, the inbox offset and the confirmation mail, or not at all.
    * `alongside` sees every result (refused ones too) and must only touch the store.
    */
-  function alarmActionsWith(inputs: readonly AlarmInput[], now: number, label: string, alongside: (s: Store, results: readonly AlarmStepResult[]) => void): AlarmStepResult[] {
+  function alarmActionsWith(inputs: readonly AlarmInput[], now: number, label: string, alongside: (s: Store, results: readonly AlarmStepResult[]) => void): AlarmActionResult[] {
+    const bookBefore = book;
     const { effects, results } = runAlarms(inputs, now);
-    commitAlarmWork(label, effects, now, (s) => {
+    const outcome = commitAlarmWork(label, effects, now, (s) => {
       applyAlarmEffects(s, effects, now);
       alongside(s, results);
     });
+    if (outcome === 'rejected') {
+      // Rolled back as a whole (see alarmAction): none of the accepted actions happened.
+      book = bookBefore;
+      version += 1;
+      return results.map((r) => (r.error ? r : { book, effects: [], error: notRecorded(null) }));
+    }
     logAlarmEffects(effects);
     if (effects.length > 0) options.onChange?.('alarms');
     return results;
@@ -500,3 +522,19 @@ export function createMonitorCore(options: MonitorCoreOptions) {
 }
 
 export type MonitorCore = ReturnType<typeof createMonitorCore>;
+
+/**
+ * An action the alarm engine accepted but whose commit was rolled back: the caller's own in-transaction
+ * step refused it (a spent acknowledge link) or a row could not be written for a reason other than the disk.
+ */
+export interface ActionNotRecorded {
+  code: 'PW_ACK_LINK_USED' | 'PW_ACTION_NOT_RECORDED';
+  message: string;
+}
+export type AlarmActionResult = Omit<AlarmStepResult, 'error'> & { error?: AlarmStepResult['error'] | ActionNotRecorded };
+
+function notRecorded(refusedBy: unknown): ActionNotRecorded {
+  const code = (refusedBy as { code?: unknown } | null)?.code;
+  if (code === 'PW_ACK_LINK_USED') return { code, message: (refusedBy as Error).message };
+  return { code: 'PW_ACTION_NOT_RECORDED', message: 'the action could not be recorded, so it has not happened; the log has the details' };
+}

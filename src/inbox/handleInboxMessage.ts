@@ -42,7 +42,8 @@ export interface InboxOutcome {
 }
 
 export interface AlarmActionsPort {
-  alarmActionsWith(inputs: readonly AlarmInput[], now: number, label: string, alongside: (s: Store, results: readonly AlarmStepResult[]) => void): AlarmStepResult[];
+  /** What it returns is not read here: the reply's own rows are written inside `alongside`, or not at all. */
+  alarmActionsWith(inputs: readonly AlarmInput[], now: number, label: string, alongside: (s: Store, results: readonly AlarmStepResult[]) => void): unknown;
 }
 
 export interface ReplyHandlerOptions {

@@ -44,6 +44,7 @@ export const WEB_ERRORS = {
   PW_WEB_NOT_FOUND: { status: 404, template: 'no {what} has id "{id}"' },
   PW_WEB_NO_ROUTE: { status: 404, template: 'nothing here: {method} {path}' },
   PW_WEB_BAD_ACTION: { status: 409, template: '{reason}' },
+  PW_WEB_NOT_RECORDED: { status: 500, template: 'the action could not be recorded, so it has not happened; the log has the details' },
   PW_WEB_TLS_UNREADABLE: { status: 500, template: '{field}: cannot read {file}: {reason}' },
   PW_WEB_INTERNAL: {
     status: 500,

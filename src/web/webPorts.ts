@@ -151,7 +151,7 @@ export interface WebReadModel {
 
 export type CommandResult =
   | { ok: true }
-  | { ok: false; code: 'PW_ALARM_NOT_FOUND' | 'PW_LOOP_NOT_FOUND' | 'PW_ALARM_BAD_ACTION' | 'PW_ACK_LINK_USED'; message: string };
+  | { ok: false; code: 'PW_ALARM_NOT_FOUND' | 'PW_LOOP_NOT_FOUND' | 'PW_ALARM_BAD_ACTION' | 'PW_ACK_LINK_USED' | 'PW_ACTION_NOT_RECORDED'; message: string };
 
 /** Spends an acknowledge link; false when it was spent already. */
 export type SpendAckLink = () => boolean;
