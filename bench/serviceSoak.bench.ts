@@ -65,6 +65,12 @@ export async function run(opts: BenchOptions): Promise<BenchResult> {
       },
       infoRow(`${variant.label}: highest RSS read (without a forced collection)`, outcome.rssPeakMb, 'MB'),
       infoRow(`${variant.label}: JS heap in use at the end`, outcome.heapEndMb, 'MB'),
+      ...(outcome.rssFileEndMb === null || outcome.rssAnonEndMb === null
+        ? []
+        : [
+            infoRow(`${variant.label}: of the RSS at the end, file-backed (node's own binary, shared and clean)`, outcome.rssFileEndMb, 'MB'),
+            infoRow(`${variant.label}: of the RSS at the end, anonymous (heaps and allocations)`, outcome.rssAnonEndMb, 'MB'),
+          ]),
       infoRow(`${variant.label}: CPU of the daemon per simulated day`, outcome.cpuS / days, 's'),
     );
     notes.push(
@@ -85,6 +91,8 @@ export interface SoakOutcome {
   rssDay1Mb: number;
   rssEndMb: number;
   rssPeakMb: number;
+  rssFileEndMb: number | null;
+  rssAnonEndMb: number | null;
   heapEndMb: number;
   cpuS: number;
   wallS: number;
@@ -197,6 +205,8 @@ export async function soakService(durationMs: number, flags: string[], env: Reco
       rssDay1Mb: rssDay1Mb || rssStartMb,
       rssEndMb: end.rssMb,
       rssPeakMb,
+      rssFileEndMb: end.rssFileMb,
+      rssAnonEndMb: end.rssAnonMb,
       heapEndMb: end.heapUsedMb,
       cpuS: end.cpuS,
       wallS,

@@ -1,3 +1,4 @@
+import { readFileSync } from 'node:fs';
 import { request } from 'node:http';
 import pino from 'pino';
 import type { SiteConfig } from '../../src/config/schema.js';
@@ -27,7 +28,7 @@ export type SoakReply =
   | { kind: 'started'; address: string }
   | { kind: 'advanced'; linesHandled: number; timersPending: number }
   | { kind: 'response'; status: number; body: string }
-  | { kind: 'memory'; rssMb: number; heapUsedMb: number; cpuS: number }
+  | { kind: 'memory'; rssMb: number; heapUsedMb: number; cpuS: number; rssFileMb: number | null; rssAnonMb: number | null }
   | { kind: 'stopped' }
   | { kind: 'failed'; message: string };
 
@@ -80,7 +81,8 @@ async function answer(message: SoakRequest): Promise<SoakReply> {
         const mb = (n: number) => (n / 2 ** 20).toFixed(1);
         process.stderr.write(`service soak at ${new Date(clock!.now()).toISOString()}: rss ${mb(m.rss)} heapTotal ${mb(m.heapTotal)} heapUsed ${mb(m.heapUsed)} external ${mb(m.external)} arrayBuffers ${mb(m.arrayBuffers)} MB\n`);
       }
-      return { kind: 'memory', rssMb: m.rss / 2 ** 20, heapUsedMb: m.heapUsed / 2 ** 20, cpuS: (cpu.user + cpu.system) / 1e6 };
+      const split = rssSplit();
+      return { kind: 'memory', rssMb: m.rss / 2 ** 20, heapUsedMb: m.heapUsed / 2 ** 20, cpuS: (cpu.user + cpu.system) / 1e6, ...split };
     }
     case 'stop': {
       // stop() races the last mail round against a timer on the monitor's clock; move the clock so it can end.
@@ -120,4 +122,22 @@ function httpCall(method: 'GET' | 'POST', path: string, token: string, body: unk
     req.on('error', reject);
     req.end(payload);
   });
+}
+
+/**
+ * RSS split into file-backed pages (mostly the node binary's own code and data, shared and clean, which
+ * the kernel can drop and reread) and anonymous memory (heaps, stacks, allocations): proc(5),
+ * /proc/[pid]/status RssFile and RssAnon, in kB. Null where the kernel does not report them.
+ */
+function rssSplit(): { rssFileMb: number | null; rssAnonMb: number | null } {
+  try {
+    const status = readFileSync('/proc/self/status', 'utf8');
+    const kb = (key: string) => {
+      const found = new RegExp(`^${key}:\\s+(\\d+) kB`, 'm').exec(status);
+      return found ? Number(found[1]) / 1024 : null;
+    };
+    return { rssFileMb: kb('RssFile'), rssAnonMb: kb('RssAnon') };
+  } catch {
+    return { rssFileMb: null, rssAnonMb: null };
+  }
 }
