@@ -53,15 +53,16 @@ export function registerApiRoutes(app: FastifyInstance, ctx: WebContext): void {
   /**
    * /loops and /alarms (active) are polled by every board and phone; their bodies are serialised
    * once per read-model version and sent as the same bytes until anything changes. Without a
-   * version every request builds its body.
+   * version every request builds its body. Kept as UTF-8 bytes, not text: a string would be measured
+   * for Content-Length and encoded again for the socket on every request.
    */
   const cachedJson = (build: () => unknown) => {
     let at: number | null = null;
-    let body = '';
+    let body = Buffer.alloc(0);
     return (reply: FastifyReply): FastifyReply => {
       const version = read.version?.() ?? null;
       if (version === null || version !== at) {
-        body = JSON.stringify(build());
+        body = Buffer.from(JSON.stringify(build()), 'utf8');
         at = version;
       }
       return reply.type('application/json; charset=utf-8').send(body);
