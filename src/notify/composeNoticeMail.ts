@@ -1,4 +1,3 @@
-import type { NoticeKind } from '../alarms/alarmTypes.js';
 import { CONDITION_NAME, CONDITION_TEXT, PRIORITY_RANK, type Priority } from '../model/condition.js';
 import { alarmStanding, BACK_TO_NORMAL_NEEDS_ACK, STANDING_WORDS } from '../model/alarmStanding.js';
 import { checkAdvice, decoderLinkOf, type DecoderLink } from '../model/decoderLink.js';
@@ -30,7 +29,6 @@ interface Entry {
   alarm: NoticeAlarm | undefined;
   /** The latest notice decides the headline; earlier ones in the same window are history. */
   last: PendingNotice;
-  kinds: NoticeKind[];
 }
 
 function labelOf(alarm: NoticeAlarm, ctx: NoticeComposeContext): string {
@@ -97,12 +95,8 @@ function buildEntries(digest: Digest, ctx: NoticeComposeContext): Entry[] {
     // Notices without an alarm carry nothing to show; alarm_id is always set by the alarm engine.
     if (notice.alarmId === null) continue;
     const entry = byAlarm.get(notice.alarmId);
-    if (entry) {
-      entry.last = notice;
-      entry.kinds.push(notice.kind);
-    } else {
-      byAlarm.set(notice.alarmId, { alarmId: notice.alarmId, alarm: ctx.alarms.get(notice.alarmId), last: notice, kinds: [notice.kind] });
-    }
+    if (entry) entry.last = notice;
+    else byAlarm.set(notice.alarmId, { alarmId: notice.alarmId, alarm: ctx.alarms.get(notice.alarmId), last: notice });
   }
   return [...byAlarm.values()].sort(
     (a, b) =>

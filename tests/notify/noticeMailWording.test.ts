@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { composeNoticeMail, REPLY_HINT, type NoticeComposeContext } from '../../src/notify/composeNoticeMail.js';
 import type { Digest, NoticeAlarm, PendingNotice } from '../../src/alarms/noticeTypes.js';
 import { sampleNoticeAlarm } from '../helpers/sampleAlarm.js';
+import { checkReplyToken } from '../../src/notify/replyToken.js';
 import { secret, settings } from './helpers/fixtures.js';
 
 /**
@@ -169,5 +170,114 @@ describe('acknowledging by reply (mail.imap)', () => {
     expect(mail.subject).toBe('[ALARM] Ridgeway Farm: Well pit — tripped, acknowledged by ann');
     expect(mail.headers['Reply-To']).toBeUndefined();
     expect(mail.text).not.toContain(REPLY_HINT);
+  });
+});
+
+describe('more body rows', () => {
+  it('"Since" gives the raise time in the site zone and UTC, and how long ago', () => {
+    // Raised 03:00 UTC (03:00 GMT in December), mail written 04:05.
+    expect(row(mailFor(alarm(), notice(1, 'raised')).text, 'Since')).toBe('Tue 1 Dec 2026, 03:00:00 GMT (2026-12-01 03:00:00 UTC), 1 h 5 min ago');
+  });
+
+  it('"Loop" gives the loop id when the name differs from it, and is left out when it would repeat the name or there is no loop', () => {
+    expect(row(mailFor(alarm(), notice(1, 'raised')).text, 'Loop')).toBe('well');
+    const sameName = { loops: [{ id: 'silo', name: 'silo', location: 'Yard' }] };
+    const silo = mailFor(alarm({ source: 'silo', loopId: 'silo' }), notice(1, 'raised'), sameName).text;
+    expect(row(silo, 'Loop')).toBeNull();
+    expect(row(silo, 'Where')).toBe('Yard');
+    const decoder = mailFor(alarm({ source: 'main', loopId: null, condition: 'offline', priority: 'trouble' }), notice(1, 'raised')).text;
+    expect(row(decoder, 'Loop')).toBeNull();
+    expect(row(decoder, 'Where')).toBeNull();
+  });
+
+  it('a mail about an alarm acknowledged earlier names who acknowledged it and their note, from the alarm itself', () => {
+    const closed = alarm({ state: 'normal', active: false, clearedAt: t0 + 2 * MIN, ackedAt: t0 + MIN, ackedBy: 'ann', note: 'heater reset' });
+    const text = mailFor(closed, notice(1, 'cleared')).text;
+    expect(row(text, 'Acknowledged')).toBe('by ann at Tue 1 Dec 2026, 03:01:00 GMT (2026-12-01 03:01:00 UTC)');
+    expect(row(text, 'Their note')).toBe('“heater reset”');
+    // A note carried by a notice that is not the acknowledgement is not the acknowledger's note.
+    expect(row(mailFor(closed, notice(1, 'cleared', { note: 'cable fixed' })).text, 'Their note')).toBe('“heater reset”');
+    // The acknowledgement's own note wins over the one stored on the alarm.
+    const acked = alarm({ state: 'acknowledged', ackedAt: t0 + MIN, ackedBy: 'ann', note: 'older note' });
+    expect(row(mailFor(acked, notice(1, 'acknowledged', { actor: 'ann', note: 'on my way' })).text, 'Their note')).toBe('“on my way”');
+    expect(row(mailFor(acked, notice(1, 'acknowledged', { actor: 'ann' })).text, 'Their note')).toBe('“older note”');
+  });
+
+  it('the acknowledgement notice names who acted, even when the alarm row names someone else', () => {
+    const acked = alarm({ state: 'acknowledged', ackedAt: t0 + MIN, ackedBy: 'Farm office (mail link)' });
+    const mail = mailFor(acked, notice(1, 'acknowledged', { actor: 'ann' }));
+    expect(mail.subject).toBe('[ALARM] Ridgeway Farm: Well pit — tripped, acknowledged by ann');
+    expect(mailFor(acked, notice(1, 'acknowledged')).subject).toBe('[ALARM] Ridgeway Farm: Well pit — tripped, acknowledged by Farm office (mail link)');
+  });
+
+  it('a person\'s words keep to one line: every kind of line break becomes one space', () => {
+    const acked = alarm({ state: 'acknowledged', ackedAt: t0 + MIN, ackedBy: 'ann' });
+    const text = mailFor(acked, notice(1, 'acknowledged', { actor: 'ann', note: 'pipes\r\n\r\nok\u2028now\u2029fine\nthanks' })).text;
+    expect(row(text, 'Their note')).toBe('“pipes ok now fine thanks”');
+  });
+
+  it('a shelving by the monitor names nobody; an alarm not shelved has no "Shelved" row even with a shelf time left on it', () => {
+    const shelved = alarm({ state: 'shelved', shelvedUntil: t0 + 120 * MIN, shelveReason: null });
+    expect(row(mailFor(shelved, notice(1, 'shelved')).text, 'Shelved')).toBe('until Tue 1 Dec 2026, 05:00:00 GMT (2026-12-01 05:00:00 UTC)');
+    // The shelving's actor is named only on the mail about the shelving itself.
+    expect(row(mailFor(shelved, notice(1, 'repeat', { actor: 'ann' })).text, 'Shelved')).toBe('until Tue 1 Dec 2026, 05:00:00 GMT (2026-12-01 05:00:00 UTC)');
+    expect(row(mailFor(alarm({ shelvedUntil: t0 + 120 * MIN }), notice(1, 'unshelved')).text, 'Shelved')).toBeNull();
+    expect(row(mailFor(alarm({ state: 'shelved', shelvedUntil: null }), notice(1, 'shelved')).text, 'Shelved')).toBeNull();
+  });
+
+  it('rows line up: each label and its colon padded to 16 characters after a two-space indent', () => {
+    const lines = mailFor(alarm(), notice(1, 'raised')).text.split('\n').filter((l) => /^ {2}[A-Z][a-z ]+:/.test(l));
+    expect(lines.length).toBeGreaterThanOrEqual(6);
+    for (const line of lines) expect(line[18], line).not.toBe(' ');
+    // "Status:" is 7 characters, so 9 spaces follow it.
+    expect(lines.find((l) => l.startsWith('  Status:'))).toBe('  Status:         active, not acknowledged');
+  });
+});
+
+describe('subject length', () => {
+  // The project's limit (common practice: about what a phone's mail list shows on two lines): 160 characters.
+  const two = (a: string, b: string) => ({ loops: [{ id: 'a', name: a, location: null }, { id: 'b', name: b, location: null }] });
+  const both = [alarm({ id: 1, source: 'a', loopId: 'a' }), alarm({ id: 2, source: 'b', loopId: 'b' })];
+  const mail = (a: string, b: string) => composeNoticeMail(digest([notice(1, 'raised'), notice(2, 'raised')]), ctx(both, two(a, b)));
+
+  it('a list that comes to exactly 160 characters is kept whole; one more character and the last is counted instead', () => {
+    const a = 'A'.repeat(52);
+    const whole = `[ALARM] Ridgeway Farm: 2 conditions — ${a} tripped, ${'B'.repeat(52)} tripped`;
+    expect(whole).toHaveLength(160);
+    expect(mail(a, 'B'.repeat(52)).subject).toBe(whole);
+    expect(mail(a, 'B'.repeat(53)).subject).toBe(`[ALARM] Ridgeway Farm: 2 conditions — ${a} tripped, and 1 more`);
+  });
+
+  it('the first condition is always named, however long its name', () => {
+    const long = 'L'.repeat(170);
+    expect(mail(long, 'Short').subject).toBe(`[ALARM] Ridgeway Farm: 2 conditions — ${long} tripped, and 1 more`);
+  });
+});
+
+describe('replies carry a reference that only this mail and this contact can use', () => {
+  const reply = { secret, ttlMs: 86_400_000, address: 'monitor@ridgeway.example' };
+
+  it('the reference verifies for the mail\'s Message-ID and its contact until web.ack_link_ttl has passed (README: mail.imap)', () => {
+    const now = t0 + 65 * MIN;
+    const mail = mailFor(alarm(), notice(1, 'raised'), { reply });
+    const ref = /\[ref (\S+)\]$/.exec(mail.subject)![1]!;
+    const claims = { messageId: mail.messageId, recipient: 'office' };
+    expect(checkReplyToken(ref, claims, secret, now + 86_400_000 - 1)).toEqual({ ok: true, expiresAt: now + 86_400_000 });
+    expect(checkReplyToken(ref, claims, secret, now + 86_400_000)).toEqual({ ok: false, reason: 'expired' });
+    expect(checkReplyToken(ref, { ...claims, recipient: 'oncall' }, secret, now)).toEqual({ ok: false, reason: 'forged' });
+    expect(checkReplyToken(ref, { ...claims, messageId: '<other@pairwatch.ridgeway.example>' }, secret, now)).toEqual({ ok: false, reason: 'forged' });
+  });
+
+  it('the HTML part says the same, and its footer says a reply is read', () => {
+    const mail = mailFor(alarm(), notice(1, 'raised'), { reply });
+    const ref = /\[ref (\S+)\]$/.exec(mail.subject)![1]!;
+    expect(mail.html).toContain(`<strong>${REPLY_HINT}</strong>`);
+    expect(mail.html).toContain(`Reference: ${ref}`);
+    expect(mail.html).toContain('a reply is read by the monitor, not by a person');
+    expect(mail.html).not.toContain('replies are not read');
+    // Without mail.imap the footer says the opposite, in both parts.
+    const plain = mailFor(alarm(), notice(1, 'raised'));
+    expect(plain.html).toContain('replies are not read');
+    expect(plain.text).toContain('replies are not read');
   });
 });
