@@ -253,4 +253,18 @@ describe('composeNoticeMail: what one mail is made of', () => {
     expect(mail).toMatchObject({ kind: 'notice', priority: 'trouble', from: 'pairwatch <monitor@ridgeway.example>', to: ['"Farm office" <office@ridgeway.example>'] });
     expect(mail.messageId).toMatch(/^<msg-\d{4}@pairwatch\.ridgeway\.example>$/);
   });
+
+  it('a digest that names no alarm on record still makes a mail, tagged system, and is not a reminder', () => {
+    const empty = composeNoticeMail(digest([{ ...notice(1), alarmId: null }]), ctx([]));
+    expect(empty.subject.startsWith('[SYSTEM] Ridgeway Farm: ')).toBe(true);
+    expect(empty.alarmIds).toEqual([]);
+    expect(composeNoticeMail(digest([]), ctx([])).reminder).toBe(false);
+  });
+
+  it('an alarm no longer on record is nothing to reply to: no reference, no Reply-To', () => {
+    const reply = { secret, ttlMs: 86_400_000, address: 'monitor@ridgeway.example' };
+    const mail = composeNoticeMail(digest([notice(9, 'repeat')]), { ...ctx([]), reply });
+    expect(mail.subject).not.toContain('[ref ');
+    expect(mail.headers['Reply-To']).toBeUndefined();
+  });
 });
