@@ -46,8 +46,8 @@ function linkOf(alarm: NoticeAlarm, ctx: NoticeComposeContext): DecoderLink | nu
   return port === undefined ? null : decoderLinkOf(port);
 }
 
-function actorOf(entry: Entry): string | null {
-  return entry.last.actor ?? entry.alarm?.ackedBy ?? null;
+function actorOf(last: PendingNotice, alarm: NoticeAlarm): string | null {
+  return last.actor ?? alarm.ackedBy ?? null;
 }
 
 /**
@@ -70,7 +70,7 @@ function phrase(entry: Entry, listed = false): string {
       return listed ? condition : `${condition}, not acknowledged`;
     case 'acknowledged': {
       if (listed) return `${condition} (acknowledged)`;
-      const actor = actorOf(entry);
+      const actor = actorOf(entry.last, alarm);
       return actor ? `${condition}, acknowledged by ${actor}` : `${condition}, acknowledged`;
     }
     case 'cleared':
@@ -143,7 +143,7 @@ function entryFacts(entry: Entry, digest: Digest, ctx: NoticeComposeContext): En
     };
   }
   const rows: EntryFacts['rows'] = [];
-  const loop = alarm.loopId ? ctx.loops.find((l) => l.id === alarm.loopId) : undefined;
+  const loop = ctx.loops.find((l) => l.id === alarm.loopId);
   if (loop?.location) rows.push({ label: 'Where', value: loop.location });
   if (alarm.loopId && alarm.loopId !== loop?.name) rows.push({ label: 'Loop', value: alarm.loopId });
   const text = CONDITION_TEXT[alarm.condition];
@@ -156,7 +156,7 @@ function entryFacts(entry: Entry, digest: Digest, ctx: NoticeComposeContext): En
   if (kind === 'repeat') rows.push({ label: 'Reminder', value: `Still not acknowledged after ${formatElapsed(ctx.now - alarm.raisedAt)}.` });
 
   if (alarm.ackedAt !== null || kind === 'acknowledged') {
-    const by = actorOf(entry) ?? 'someone';
+    const by = actorOf(entry.last, alarm) ?? 'someone';
     const at = alarm.ackedAt !== null ? ` at ${formatSiteAndUtc(alarm.ackedAt, ctx.timeZone)}` : '';
     rows.push({ label: 'Acknowledged', value: `by ${by}${at}` });
     const note = entry.last.kind === 'acknowledged' ? (entry.last.note ?? alarm.note) : alarm.note;

@@ -51,6 +51,7 @@ export function planDigests(pending: readonly PendingNotice[], now: number): Dig
     const ordered = [...notices].sort((a, b) => a.createdAt - b.createdAt || a.id - b.id);
     digests.push({ contactId, dueAt, notices: ordered });
   }
+  // Stryker disable next-line EqualityOperator: one digest per contact, so two ids are never equal here (and V8's sort reads only a negative answer)
   return digests.sort((a, b) => a.dueAt - b.dueAt || (a.contactId < b.contactId ? -1 : a.contactId > b.contactId ? 1 : 0));
 }
 

@@ -196,6 +196,10 @@ describe('composeNoticeMail: what one mail is made of', () => {
     const { text } = composeNoticeMail(digest([notice(1), notice(2)]), ctx(alarms));
     expect(text).toContain('\nALARM (1)\n=========\n\nWell pit — tripped\n');
     expect(text).toContain('\nSYSTEM TROUBLE (1)\n==================\n\nMonitor — mail failing\n');
+    // A blank line after each entry; no heading for a priority with nothing in it.
+    expect(text).toMatch(/\n {2}Acknowledge: +\S+\n\nSYSTEM TROUBLE \(1\)\n/);
+    expect(text).not.toContain('TROUBLE (0)');
+    expect(text).not.toMatch(/^TROUBLE/m);
     // The text part opens with the subject and a blank line.
     expect(text.startsWith('[ALARM] Ridgeway Farm: 2 conditions — Well pit tripped, Monitor mail failing\n\n')).toBe(true);
   });
@@ -208,6 +212,8 @@ describe('composeNoticeMail: what one mail is made of', () => {
     expect(mail.html).toMatch(/<h3[^>]*>Well pit — tripped<\/h3>/);
     expect(mail.html).toMatch(/<tr><th[^>]*>Where<\/th><td[^>]*>Pump house, north paddock<\/td><\/tr>/);
     expect(mail.html).toMatch(/<tr><th[^>]*>Also told<\/th><td[^>]*>On-call phone<\/td><\/tr>/);
+    expect(mail.html).toMatch(/<\/td><\/tr><tr><th[^>]*>What it means<\/th>/);
+    expect(mail.html).not.toMatch(/<h2[^>]*>TROUBLE/);
     // The acknowledge button, and the promise that opening it changes nothing (README: web security).
     expect(mail.html).toMatch(/<a href="https:\/\/monitor\.ridgeway\.example\/ack\/[^"]+"[^>]*>Acknowledge…<\/a>/);
     expect(mail.html).toContain('Opens a page where you confirm; opening the link alone changes nothing.');

@@ -221,3 +221,15 @@ describe('start and stop mails: the rest', () => {
     expect(mail.text).toContain('\n--\nSent automatically by pairwatch at Ridgeway Farm; replies are not read.\n');
   });
 });
+
+describe('daily report: how an alarm stands', () => {
+  it('a latched alarm whose condition has gone reads "back to normal — still needs acknowledging", not active', () => {
+    const mail = composeDailyReport(data({ alarms: [raised(1, { clearedAt: now - HOUR })] }), envelope());
+    expect(lines(mail)).toContain('Well pit — tripped: raised Tue 1 Dec 2026, 04:00:00 GMT; back to normal Tue 1 Dec 2026, 06:00:00 GMT; now back to normal — still needs acknowledging');
+  });
+
+  it('an alarm on a loop no longer configured is named by the loop id', () => {
+    const mail = composeDailyReport(data({ alarms: [raised(1, { source: 'silo', loopId: 'silo' })] }), envelope());
+    expect(lines(mail)).toContain('Loop silo — tripped: raised Tue 1 Dec 2026, 04:00:00 GMT; still present; now active, not acknowledged');
+  });
+});

@@ -2,7 +2,7 @@ import { afterEach, describe, expect, it } from 'vitest';
 import { flushDigests } from '../../src/notify/flushDigests.js';
 import { queueNotices } from '../../src/notify/noticeQueue.js';
 import { dueOutbox } from '../../src/store/outboxRepo.js';
-import { listPendingNotices } from '../../src/store/pendingNoticeRepo.js';
+import { insertPendingNotice, listPendingNotices } from '../../src/store/pendingNoticeRepo.js';
 import { insertAlarm, openTestDb, type TestDb } from './helpers/notifyDb.js';
 import { settings } from './helpers/fixtures.js';
 
@@ -93,5 +93,15 @@ describe('flushDigests (real SQLite)', () => {
     queueNotices(t.db, { kind: 'notify', alarmId: a, contactIds: ['gone'], notice: 'repeat', actor: null, note: null }, t0, 0);
     expect(flushDigests(t.db, t0, settings()).unknownContacts).toEqual(['gone']);
     expect(t.db.prepare("SELECT alarm_id AS alarmId FROM audit WHERE action = 'mail-failed'").all()).toEqual([{ alarmId: a }]);
+  });
+
+  it('a waiting notice that names no alarm adds no audit row of its own when its contact is gone', () => {
+    t = openTestDb();
+    const a = insertAlarm(t.db, { loopId: 'well', condition: 'tripped', priority: 'alarm', raisedAt: t0 });
+    queueNotices(t.db, { kind: 'notify', alarmId: a, contactIds: ['gone'], notice: 'raised', actor: null, note: null }, t0, 0);
+    insertPendingNotice(t.db, { contactId: 'gone', alarmId: null, kind: 'repeat', createdAt: t0, dueAt: t0, actor: null, note: null });
+    flushDigests(t.db, t0, settings());
+    expect(t.db.prepare("SELECT alarm_id AS alarmId FROM audit WHERE action = 'mail-failed'").all()).toEqual([{ alarmId: a }]);
+    expect(listPendingNotices(t.db)).toEqual([]);
   });
 });

@@ -74,6 +74,29 @@ describe('the subject of a mail about one alarm', () => {
     const mail = composeNoticeMail(digest([notice(7, 'escalated')]), ctx([]));
     expect(mail.subject).toBe('[SYSTEM] Ridgeway Farm: Alarm #7 — alarm #7 (no longer on record)');
     expect(row(mail.text, 'Note')).toBe('This alarm is no longer on record; see the board for the current state.');
+    expect(mail.text).toContain('\nAlarm #7\n  Note:');
+  });
+
+  it('a mail about a missing alarm and one on record names both, whatever order they were queued in', () => {
+    const system = alarm({ id: 2, source: 'system', loopId: null, condition: 'mail-failing', priority: 'system' });
+    const mail = composeNoticeMail(digest([notice(2, 'raised'), notice(7, 'repeat')]), ctx([system]));
+    expect(mail.subject).toMatch(/^\[SYSTEM\] Ridgeway Farm: 2 conditions — /);
+    expect(mail.subject).toContain('Alarm #7 alarm #7 (no longer on record)');
+    expect(mail.subject).toContain('Monitor mail failing');
+    expect([...mail.alarmIds].sort()).toEqual([2, 7]);
+  });
+
+  it('alarms of one priority raised at the same moment are listed by alarm number', () => {
+    const same = [3, 1, 4, 2, 5].map((id) => alarm({ id, source: `bay${id}`, loopId: `bay${id}` }));
+    const mail = composeNoticeMail(digest([3, 1, 4, 2, 5].map((id) => notice(id, 'raised'))), ctx(same));
+    expect(mail.alarmIds).toEqual([1, 2, 3, 4, 5]);
+    expect(mail.subject).toBe('[ALARM] Ridgeway Farm: 5 conditions — Hay bay 1 tripped, Hay bay 2 tripped, Hay bay 3 tripped, Hay bay 4 tripped, Hay bay 5 tripped');
+  });
+
+  it('without any decoders configured, a decoder alarm is named by its source and still gets advice', () => {
+    const mail = mailFor(alarm({ source: 'yard', loopId: null, condition: 'offline', priority: 'trouble' }), notice(1, 'raised'), { decoders: undefined });
+    expect(mail.subject).toBe('[TROUBLE] Ridgeway Farm: yard — decoder offline');
+    expect(row(mail.text, 'What to check')).toMatch(/\S/);
   });
 });
 
@@ -174,6 +197,19 @@ describe('acknowledging by reply (mail.imap)', () => {
 });
 
 describe('more body rows', () => {
+  it('an alarm nobody has acknowledged has no "Acknowledged" and no "Back to normal" row; "What it means" is there', () => {
+    const text = mailFor(alarm(), notice(1, 'raised')).text;
+    expect(row(text, 'Acknowledged')).toBeNull();
+    expect(row(text, 'Their note')).toBeNull();
+    expect(row(text, 'Back to normal')).toBeNull();
+    expect(row(text, 'What it means')).toMatch(/^tripped: /);
+  });
+
+  it('an acknowledgement by nobody named reads "by someone"', () => {
+    const acked = alarm({ state: 'acknowledged', ackedAt: t0 + MIN });
+    expect(row(mailFor(acked, notice(1, 'acknowledged')).text, 'Acknowledged')).toBe('by someone at Tue 1 Dec 2026, 03:01:00 GMT (2026-12-01 03:01:00 UTC)');
+  });
+
   it('"Since" gives the raise time in the site zone and UTC, and how long ago', () => {
     // Raised 03:00 UTC (03:00 GMT in December), mail written 04:05.
     expect(row(mailFor(alarm(), notice(1, 'raised')).text, 'Since')).toBe('Tue 1 Dec 2026, 03:00:00 GMT (2026-12-01 03:00:00 UTC), 1 h 5 min ago');
@@ -248,6 +284,15 @@ describe('subject length', () => {
     expect(mail(a, 'B'.repeat(53)).subject).toBe(`[ALARM] Ridgeway Farm: 2 conditions — ${a} tripped, and 1 more`);
   });
 
+  it('a middle condition is kept only when the count of those after it still fits ("and 1 more" is 12 characters)', () => {
+    const three = { loops: ['a', 'b', 'c'].map((id, i) => ({ id, name: ['A'.repeat(46), 'B'.repeat(46), 'Cow shed'][i]!, location: null })) };
+    const alarms = ['a', 'b', 'c'].map((id, i) => alarm({ id: i + 1, source: id, loopId: id }));
+    const subject = composeNoticeMail(digest([notice(1, 'raised'), notice(2, 'raised'), notice(3, 'raised')]), ctx(alarms, three)).subject;
+    const expected = `[ALARM] Ridgeway Farm: 3 conditions — ${'A'.repeat(46)} tripped, ${'B'.repeat(46)} tripped, and 1 more`;
+    expect(expected).toHaveLength(160);
+    expect(subject).toBe(expected);
+  });
+
   it('the first condition is always named, however long its name', () => {
     const long = 'L'.repeat(170);
     expect(mail(long, 'Short').subject).toBe(`[ALARM] Ridgeway Farm: 2 conditions — ${long} tripped, and 1 more`);
@@ -266,6 +311,15 @@ describe('replies carry a reference that only this mail and this contact can use
     expect(checkReplyToken(ref, claims, secret, now + 86_400_000)).toEqual({ ok: false, reason: 'expired' });
     expect(checkReplyToken(ref, { ...claims, recipient: 'oncall' }, secret, now)).toEqual({ ok: false, reason: 'forged' });
     expect(checkReplyToken(ref, { ...claims, messageId: '<other@pairwatch.ridgeway.example>' }, secret, now)).toEqual({ ok: false, reason: 'forged' });
+  });
+
+  it('one alarm still waiting among others already acknowledged is enough for a reference; the hint ends before the footer', () => {
+    const waiting = alarm({ id: 2, source: 'lambing', loopId: 'lambing', raisedAt: t0 + MIN });
+    const acked = alarm({ state: 'acknowledged', ackedAt: t0 + MIN, ackedBy: 'ann' });
+    const mail = composeNoticeMail(digest([notice(1, 'acknowledged', { actor: 'ann' }), notice(2, 'raised')]), ctx([acked, waiting], { reply }));
+    const ref = /\[ref (\S+)\]$/.exec(mail.subject)?.[1];
+    expect(ref).toBeTruthy();
+    expect(mail.text).toContain(`\nReference: ${ref}\n\n--\n`);
   });
 
   it('the HTML part says the same, and its footer says a reply is read', () => {
