@@ -94,9 +94,8 @@ function buildEntries(digest: Digest, ctx: NoticeComposeContext): Entry[] {
   for (const notice of digest.notices) {
     // Notices without an alarm carry nothing to show; alarm_id is always set by the alarm engine.
     if (notice.alarmId === null) continue;
-    const entry = byAlarm.get(notice.alarmId);
-    if (entry) entry.last = notice;
-    else byAlarm.set(notice.alarmId, { alarmId: notice.alarmId, alarm: ctx.alarms.get(notice.alarmId), last: notice });
+    // A later notice about the same alarm takes the earlier one's place (a Map keeps the first insertion's position).
+    byAlarm.set(notice.alarmId, { alarmId: notice.alarmId, alarm: ctx.alarms.get(notice.alarmId), last: notice });
   }
   return [...byAlarm.values()].sort(
     (a, b) =>

@@ -214,6 +214,8 @@ describe('composeNoticeMail: what one mail is made of', () => {
     expect(mail.html).toMatch(/<tr><th[^>]*>Also told<\/th><td[^>]*>On-call phone<\/td><\/tr>/);
     expect(mail.html).toMatch(/<\/td><\/tr><tr><th[^>]*>What it means<\/th>/);
     expect(mail.html).not.toMatch(/<h2[^>]*>TROUBLE/);
+    // Each block of markup on a line of its own, so a mail client's source view stays readable.
+    expect(mail.html).toMatch(/<\/h1>\n<h2/);
     // The acknowledge button, and the promise that opening it changes nothing (README: web security).
     expect(mail.html).toMatch(/<a href="https:\/\/monitor\.ridgeway\.example\/ack\/[^"]+"[^>]*>Acknowledge…<\/a>/);
     expect(mail.html).toContain('Opens a page where you confirm; opening the link alone changes nothing.');

@@ -148,6 +148,9 @@ describe('daily report: the mail itself', () => {
     expect(mail.html).toContain('<p>Next report: Wed 2 Dec 2026, 07:00:00 GMT (2026-12-02 07:00:00 UTC).</p>');
     expect(mail.html).toContain('<p>Test the whole chain (remote node to phone) after installation and each autumn.</p>');
     expect(mail.html).toContain('replies are not read');
+    expect(mail.html).toMatch(/<\/h1>\n<p>Daily report for /);
+    const two = composeDailyReport(data({ loops: [loop('well', 'Well pit'), loop('lambing', 'Lambing shed')] }), envelope());
+    expect(two.html).toMatch(/<li>Well pit: healthy since [^<]*<\/li><li>Lambing shed: healthy since [^<]*<\/li><\/ul>/);
     expect(mail.html).toMatch(/<title>\[REPORT\] Ridgeway Farm: daily report Tue 1 Dec — all loops healthy \(1\)<\/title>/);
   });
 
@@ -158,6 +161,9 @@ describe('daily report: the mail itself', () => {
     expect(text).toContain('\nMAIL\n====\n');
     expect(text).toContain(`Next report: Wed 2 Dec 2026, 07:00:00 GMT (2026-12-02 07:00:00 UTC).\n${REPORT_DEAD_MAN_LINE}\n`);
     expect(text).toMatch(/\n--\nSent automatically by pairwatch at Ridgeway Farm; replies are not read\.\nThe board: http:\/\/127\.0\.0\.1:8080\/\n/);
+    // Blank lines: after the opening, and between the closing and the footer.
+    expect(text).toContain('Monitoring has run since Sat 21 Nov 2026, 07:00:00 GMT (2026-11-21 07:00:00 UTC).\n\nLOOPS NOW (1)\n');
+    expect(text).toContain('Test the whole chain (remote node to phone) after installation and each autumn.\n\n--\n');
   });
 
   it('a loop out of service keeps its location and shows the note only when there is one', () => {
@@ -216,6 +222,8 @@ describe('start and stop mails: the rest', () => {
     expect(mail.text.startsWith('[SYSTEM] Ridgeway Farm: monitoring stopped on purpose\n\n')).toBe(true);
     expect(mail.html).toMatch(/<h1[^>]*>\[SYSTEM\] Ridgeway Farm: monitoring stopped on purpose<\/h1>/);
     expect(mail.html).toContain('<title>[SYSTEM] Ridgeway Farm: monitoring stopped on purpose</title>');
+    expect(mail.html).toMatch(/<\/h1>\n<p>pairwatch was stopped on purpose at /);
+    expect(mail.text).toContain('no alarms, no daily report.\n\n--\n');
     expect(mail.html).toContain('<p>Its 3 loops are NOT watched until it is started again: no alarms, no daily report.</p>');
     expect(mail.html).toContain('Sent automatically by pairwatch at Ridgeway Farm; replies are not read.');
     expect(mail.text).toContain('\n--\nSent automatically by pairwatch at Ridgeway Farm; replies are not read.\n');

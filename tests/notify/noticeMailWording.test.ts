@@ -84,6 +84,9 @@ describe('the subject of a mail about one alarm', () => {
     expect(mail.subject).toContain('Alarm #7 alarm #7 (no longer on record)');
     expect(mail.subject).toContain('Monitor mail failing');
     expect([...mail.alarmIds].sort()).toEqual([2, 7]);
+    const reversed = composeNoticeMail(digest([notice(7, 'repeat'), notice(2, 'raised')]), ctx([system]));
+    expect(reversed.subject).toContain('Alarm #7 alarm #7 (no longer on record)');
+    expect([...reversed.alarmIds].sort()).toEqual([2, 7]);
   });
 
   it('alarms of one priority raised at the same moment are listed by alarm number', () => {
