@@ -1,4 +1,3 @@
-import type { NoticeKind } from '../alarms/alarmTypes.js';
 import { CONDITION_NAME, CONDITION_TEXT, PRIORITY_RANK, type Priority } from '../model/condition.js';
 import { alarmStanding, BACK_TO_NORMAL_NEEDS_ACK, STANDING_WORDS } from '../model/alarmStanding.js';
 import { checkAdvice, decoderLinkOf, type DecoderLink } from '../model/decoderLink.js';
@@ -30,7 +29,6 @@ interface Entry {
   alarm: NoticeAlarm | undefined;
   /** The latest notice decides the headline; earlier ones in the same window are history. */
   last: PendingNotice;
-  kinds: NoticeKind[];
 }
 
 function labelOf(alarm: NoticeAlarm, ctx: NoticeComposeContext): string {
@@ -48,8 +46,8 @@ function linkOf(alarm: NoticeAlarm, ctx: NoticeComposeContext): DecoderLink | nu
   return port === undefined ? null : decoderLinkOf(port);
 }
 
-function actorOf(entry: Entry): string | null {
-  return entry.last.actor ?? entry.alarm?.ackedBy ?? null;
+function actorOf(last: PendingNotice, alarm: NoticeAlarm): string | null {
+  return last.actor ?? alarm.ackedBy ?? null;
 }
 
 /**
@@ -72,7 +70,7 @@ function phrase(entry: Entry, listed = false): string {
       return listed ? condition : `${condition}, not acknowledged`;
     case 'acknowledged': {
       if (listed) return `${condition} (acknowledged)`;
-      const actor = actorOf(entry);
+      const actor = actorOf(entry.last, alarm);
       return actor ? `${condition}, acknowledged by ${actor}` : `${condition}, acknowledged`;
     }
     case 'cleared':
@@ -96,13 +94,8 @@ function buildEntries(digest: Digest, ctx: NoticeComposeContext): Entry[] {
   for (const notice of digest.notices) {
     // Notices without an alarm carry nothing to show; alarm_id is always set by the alarm engine.
     if (notice.alarmId === null) continue;
-    const entry = byAlarm.get(notice.alarmId);
-    if (entry) {
-      entry.last = notice;
-      entry.kinds.push(notice.kind);
-    } else {
-      byAlarm.set(notice.alarmId, { alarmId: notice.alarmId, alarm: ctx.alarms.get(notice.alarmId), last: notice, kinds: [notice.kind] });
-    }
+    // A later notice about the same alarm takes the earlier one's place (a Map keeps the first insertion's position).
+    byAlarm.set(notice.alarmId, { alarmId: notice.alarmId, alarm: ctx.alarms.get(notice.alarmId), last: notice });
   }
   return [...byAlarm.values()].sort(
     (a, b) =>
@@ -149,7 +142,7 @@ function entryFacts(entry: Entry, digest: Digest, ctx: NoticeComposeContext): En
     };
   }
   const rows: EntryFacts['rows'] = [];
-  const loop = alarm.loopId ? ctx.loops.find((l) => l.id === alarm.loopId) : undefined;
+  const loop = ctx.loops.find((l) => l.id === alarm.loopId);
   if (loop?.location) rows.push({ label: 'Where', value: loop.location });
   if (alarm.loopId && alarm.loopId !== loop?.name) rows.push({ label: 'Loop', value: alarm.loopId });
   const text = CONDITION_TEXT[alarm.condition];
@@ -162,7 +155,7 @@ function entryFacts(entry: Entry, digest: Digest, ctx: NoticeComposeContext): En
   if (kind === 'repeat') rows.push({ label: 'Reminder', value: `Still not acknowledged after ${formatElapsed(ctx.now - alarm.raisedAt)}.` });
 
   if (alarm.ackedAt !== null || kind === 'acknowledged') {
-    const by = actorOf(entry) ?? 'someone';
+    const by = actorOf(entry.last, alarm) ?? 'someone';
     const at = alarm.ackedAt !== null ? ` at ${formatSiteAndUtc(alarm.ackedAt, ctx.timeZone)}` : '';
     rows.push({ label: 'Acknowledged', value: `by ${by}${at}` });
     const note = entry.last.kind === 'acknowledged' ? (entry.last.note ?? alarm.note) : alarm.note;

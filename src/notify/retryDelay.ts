@@ -29,7 +29,9 @@ export function retryDelayMs(failures: number, options: RetryDelayOptions): numb
   // Exponent capped so 2**n stays finite however many times a row has failed.
   const base = Math.min(maxMs, firstMs * 2 ** Math.min(step - 1, 40));
   const ratio = Math.min(1, Math.max(0, options.jitterRatio ?? 0));
+  // Stryker disable next-line ConditionalExpression: a ratio of 0 takes nothing off anyway; the early return only skips the hash
   if (ratio === 0) return base;
+  // Stryker disable next-line ArithmeticOperator: any key-and-attempt mix would do; the tests hold the spread and the bounds, not the values
   const fraction = mix32(((options.jitterKey ?? 0) * 2654435761 + step) | 0) / 0x1_0000_0000;
   return Math.round(base * (1 - ratio * fraction));
 }

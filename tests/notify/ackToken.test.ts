@@ -90,6 +90,51 @@ describe('signAckToken / verifyAckToken', () => {
     },
   );
 
+  it('refuses to sign an alarm id, expiry or token id outside its range, saying which', () => {
+    const ok = { alarmId: 1, contactId: 'office', expiresAt: now, tokenId: 'tok_0123456789abcdef' };
+    for (const alarmId of [0, -1, 1.5, Number.NaN, 2 ** 53]) {
+      expect(() => signAckToken({ ...ok, alarmId }, secret)).toThrow(new RangeError(`alarmId must be a positive integer, got ${alarmId}`));
+    }
+    for (const expiresAt of [-1, 1.5, Number.POSITIVE_INFINITY]) {
+      expect(() => signAckToken({ ...ok, expiresAt }, secret)).toThrow(new RangeError(`expiresAt must be epoch milliseconds, got ${expiresAt}`));
+    }
+    for (const tokenId of ['short', 'x'.repeat(65), 'tok with space']) {
+      expect(() => signAckToken({ ...ok, tokenId }, secret)).toThrow(new RangeError('tokenId must be 8–64 characters of A-Z a-z 0-9 _ -'));
+    }
+    expect(() => signAckToken({ ...ok, contactId: 'Office' }, secret)).toThrow(new RangeError('contactId must be a config contact id, got "Office"'));
+    // The edges themselves are allowed: alarm 1, expiry at the epoch, an 8-character id.
+    expect(verifyAckToken(signAckToken({ ...ok, expiresAt: 0, tokenId: 'abcdefgh' }, secret), secret, -1)).toMatchObject({ ok: true, alarmId: 1, expiresAt: 0 });
+  });
+
+  it('refuses a token that is not a string as malformed, without throwing', () => {
+    expect(verifyAckToken(42 as unknown as string, secret, now)).toEqual({ ok: false, reason: 'malformed' });
+    expect(verifyAckToken(undefined as unknown as string, secret, now)).toEqual({ ok: false, reason: 'malformed' });
+  });
+
+  it('a genuine earlier-layout token under another version tag is malformed, not accepted', () => {
+    const part = `a1.42.${now + week}.tok_0123456789abcdef`;
+    const old = `${part}.${computeAckMac(`pairwatch-ack:${part}`, secret).toString('base64url')}`;
+    expect(verifyAckToken(old.replace(/^a1\./, 'a3.'), secret, now)).toEqual({ ok: false, reason: 'malformed' });
+    expect(verifyAckToken(old.replace(/^a1\./, 'a2.'), secret, now)).toEqual({ ok: false, reason: 'malformed' });
+  });
+
+  it('an alarm id or expiry past 2^53 − 1 (ECMA-262 Number.MAX_SAFE_INTEGER) is malformed, even with the other one fine', () => {
+    const big = '9007199254740993';
+    const mac = computeAckMac('x', secret).toString('base64url');
+    expect(verifyAckToken(`a2.${big}.office.${now + week}.tok_0123456789abcdef.${mac}`, secret, now)).toEqual({ ok: false, reason: 'malformed' });
+    expect(verifyAckToken(`a2.42.office.${big}.tok_0123456789abcdef.${mac}`, secret, now)).toEqual({ ok: false, reason: 'malformed' });
+  });
+
+  it('a MAC spelt another way that decodes to the same bytes is forged (RFC 4648 §3.5: canonical encoding)', () => {
+    // 43 base64url characters carry 258 bits; the last character's 2 lowest bits are padding.
+    const alphabet = 'ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789-_';
+    const last = token.at(-1)!;
+    const twin = alphabet[alphabet.indexOf(last) ^ 1]!;
+    const respelt = `${token.slice(0, -1)}${twin}`;
+    expect(Buffer.from(respelt.split('.').at(-1)!, 'base64url')).toEqual(Buffer.from(token.split('.').at(-1)!, 'base64url'));
+    expect(verifyAckToken(respelt, secret, now)).toEqual({ ok: false, reason: 'forged' });
+  });
+
   it('makes distinct, URL-safe single-use ids', () => {
     const ids = new Set(Array.from({ length: 100 }, () => newAckTokenId()));
     expect(ids.size).toBe(100);

@@ -170,3 +170,109 @@ describe('composeNoticeMail: headers', () => {
     expect(mail.to).toEqual(['"Neighbour \\"Sam\\"" <sam@ridgeway.example>']);
   });
 });
+
+describe('composeNoticeMail: what one mail is made of', () => {
+  it('several notices about one alarm are one entry, headed by the latest (README, Storm control: one mail per contact listing them all)', () => {
+    const acked = alarm(1, { loopId: 'well', state: 'acknowledged', ackedAt: t0 + 5_000, ackedBy: 'ann' });
+    const mail = composeNoticeMail(digest([notice(1), notice(1, 'acknowledged', { actor: 'ann' })]), ctx([acked]));
+    expect(mail.subject).toBe('[ALARM] Ridgeway Farm: Well pit — tripped, acknowledged by ann');
+    expect(mail.alarmIds).toEqual([1]);
+    expect(mail.text.match(/^Well pit — /gm)).toEqual(['Well pit — ']);
+  });
+
+  it('a notice that names no alarm is left out of the mail', () => {
+    const mail = composeNoticeMail(digest([notice(1), { ...notice(2), alarmId: null }]), ctx([alarm(1, { loopId: 'well' })]));
+    expect(mail.subject).toBe('[ALARM] Ridgeway Farm: Well pit — tripped');
+    expect(mail.alarmIds).toEqual([1]);
+    expect(mail.text).not.toContain('#null');
+  });
+
+  it('a digest for a contact not in the configuration is refused with an error naming the id', () => {
+    expect(() => composeNoticeMail(digest([notice(1)], 'ghost'), ctx([alarm(1, { loopId: 'well' })]))).toThrow(new RangeError('no contact has id "ghost"'));
+  });
+
+  it('each section heading is underlined to its own length in the text part', () => {
+    const alarms = [alarm(1, { loopId: 'well' }), alarm(2, { condition: 'mail-failing', priority: 'system' })];
+    const { text } = composeNoticeMail(digest([notice(1), notice(2)]), ctx(alarms));
+    expect(text).toContain('\nALARM (1)\n=========\n\nWell pit — tripped\n');
+    expect(text).toContain('\nSYSTEM TROUBLE (1)\n==================\n\nMonitor — mail failing\n');
+    // A blank line after each entry; no heading for a priority with nothing in it.
+    expect(text).toMatch(/\n {2}Acknowledge: +\S+\n\nSYSTEM TROUBLE \(1\)\n/);
+    expect(text).not.toContain('TROUBLE (0)');
+    expect(text).not.toMatch(/^TROUBLE/m);
+    // The text part opens with the subject and a blank line.
+    expect(text.startsWith('[ALARM] Ridgeway Farm: 2 conditions — Well pit tripped, Monitor mail failing\n\n')).toBe(true);
+  });
+
+  it('the HTML part: the subject as its heading, one section heading per priority, each fact as a table row', () => {
+    const mail = composeNoticeMail(digest([notice(1)]), ctx([alarm(1, { loopId: 'well' })], { 1: ['office', 'oncall'] }));
+    expect(mail.html).toMatch(/<title>\[ALARM\] Ridgeway Farm: Well pit — tripped<\/title>/);
+    expect(mail.html).toMatch(/<h1[^>]*>\[ALARM\] Ridgeway Farm: Well pit — tripped<\/h1>/);
+    expect(mail.html).toMatch(/<h2[^>]*>ALARM \(1\)<\/h2>/);
+    expect(mail.html).toMatch(/<h3[^>]*>Well pit — tripped<\/h3>/);
+    expect(mail.html).toMatch(/<tr><th[^>]*>Where<\/th><td[^>]*>Pump house, north paddock<\/td><\/tr>/);
+    expect(mail.html).toMatch(/<tr><th[^>]*>Also told<\/th><td[^>]*>On-call phone<\/td><\/tr>/);
+    expect(mail.html).toMatch(/<\/td><\/tr><tr><th[^>]*>What it means<\/th>/);
+    expect(mail.html).not.toMatch(/<h2[^>]*>TROUBLE/);
+    // Each block of markup on a line of its own, so a mail client's source view stays readable.
+    expect(mail.html).toMatch(/<\/h1>\n<h2/);
+    // The acknowledge button, and the promise that opening it changes nothing (README: web security).
+    expect(mail.html).toMatch(/<a href="https:\/\/monitor\.ridgeway\.example\/ack\/[^"]+"[^>]*>Acknowledge…<\/a>/);
+    expect(mail.html).toContain('Opens a page where you confirm; opening the link alone changes nothing.');
+  });
+
+  it('an entry with nothing to acknowledge ends at its table: no button, no stray text', () => {
+    const acked = alarm(1, { loopId: 'well', state: 'acknowledged', ackedAt: t0, ackedBy: 'ann' });
+    const mail = composeNoticeMail(digest([notice(1, 'acknowledged', { actor: 'ann' })]), ctx([acked]));
+    expect(mail.html).toMatch(/<\/tr><\/table><\/div>/);
+    expect(mail.html).not.toContain('Acknowledge…');
+  });
+
+  it('without an acknowledge key there is no link, in either part', () => {
+    const mail = composeNoticeMail(digest([notice(1)]), { ...ctx([alarm(1, { loopId: 'well' })]), ack: null });
+    expect(mail.text).not.toMatch(/Acknowledge:/);
+    expect(mail.html).not.toContain('/ack/');
+  });
+
+  it('the link lasts web.ack_link_ttl from when the mail is written (README: web), then is refused as expired', () => {
+    const now = t0 + 10_000;
+    const mail = composeNoticeMail(digest([notice(1)]), ctx([alarm(1, { loopId: 'well' })], {}, now));
+    const token = /\/ack\/(\S+)/.exec(mail.text)![1]!;
+    const week = 7 * 86_400_000;
+    expect(verifyAckToken(token, secret, now + week - 1)).toMatchObject({ ok: true, expiresAt: now + week });
+    expect(verifyAckToken(token, secret, now + week)).toEqual({ ok: false, reason: 'expired' });
+  });
+
+  it('mails about several threads reply to each, once, separated by a space (RFC 5322 §3.6.4: 1*msg-id)', () => {
+    const alarms = [
+      alarm(1, { loopId: 'well', threadMessageId: '<t1@pairwatch.ridgeway.example>' }),
+      alarm(2, { loopId: 'lambing', threadMessageId: '<t2@pairwatch.ridgeway.example>', raisedAt: t0 + 1 }),
+      alarm(3, { loopId: 'tack', threadMessageId: '<t1@pairwatch.ridgeway.example>', raisedAt: t0 + 2 }),
+      alarm(4, { loopId: 'bay1', raisedAt: t0 + 3 }),
+    ];
+    const mail = composeNoticeMail(digest([notice(1), notice(2), notice(3), notice(4)]), ctx(alarms));
+    expect(mail.headers['In-Reply-To']).toBe('<t1@pairwatch.ridgeway.example> <t2@pairwatch.ridgeway.example>');
+    expect(mail.headers['References']).toBe('<t1@pairwatch.ridgeway.example> <t2@pairwatch.ridgeway.example>');
+    expect(mail.headers['Reply-To']).toBeUndefined();
+  });
+
+  it('is a notice from the configured sender with the priority of its top entry', () => {
+    const mail = composeNoticeMail(digest([notice(1)]), ctx([alarm(1, { loopId: 'lambing', condition: 'open', priority: 'trouble' })]));
+    expect(mail).toMatchObject({ kind: 'notice', priority: 'trouble', from: 'pairwatch <monitor@ridgeway.example>', to: ['"Farm office" <office@ridgeway.example>'] });
+    expect(mail.messageId).toMatch(/^<msg-\d{4}@pairwatch\.ridgeway\.example>$/);
+  });
+
+  it('a digest that names no alarm on record still makes a mail, tagged system, and is not a reminder', () => {
+    const empty = composeNoticeMail(digest([{ ...notice(1), alarmId: null }]), ctx([]));
+    expect(empty.subject.startsWith('[SYSTEM] Ridgeway Farm: ')).toBe(true);
+    expect(empty.alarmIds).toEqual([]);
+    expect(composeNoticeMail(digest([]), ctx([])).reminder).toBe(false);
+  });
+
+  it('an alarm no longer on record is nothing to reply to: no reference, no Reply-To', () => {
+    const reply = { secret, ttlMs: 86_400_000, address: 'monitor@ridgeway.example' };
+    const mail = composeNoticeMail(digest([notice(9, 'repeat')]), { ...ctx([]), reply });
+    expect(mail.subject).not.toContain('[ref ');
+    expect(mail.headers['Reply-To']).toBeUndefined();
+  });
+});

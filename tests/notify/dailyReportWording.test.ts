@@ -130,3 +130,114 @@ describe('start and stop mails', () => {
     expect(mail.text).toContain('\npairwatch was stopped on purpose at Tue 1 Dec 2026, 07:00:00 GMT (2026-12-01 07:00:00 UTC).\nIts 1 loop is NOT watched until it is started again: no alarms, no daily report.\n');
   });
 });
+
+describe('daily report: the mail itself', () => {
+  it('a report mail: its own Message-ID, about no alarm, sent to the report list (README: report.notify)', () => {
+    const mail = composeDailyReport(data(), { from: 'pairwatch <monitor@ridgeway.example>', to: ['office@ridgeway.example', 'oncall@ridgeway.example'], newMessageId: () => '<r1@pairwatch.ridgeway.example>' });
+    expect(mail).toMatchObject({ messageId: '<r1@pairwatch.ridgeway.example>', kind: 'daily-report', from: 'pairwatch <monitor@ridgeway.example>', alarmIds: [] });
+    expect(mail.to).toEqual(['office@ridgeway.example', 'oncall@ridgeway.example']);
+    expect(mail.headers).toEqual({ 'Auto-Submitted': 'auto-generated' });
+  });
+
+  it('the HTML part: the subject as heading, the opening lines as paragraphs, each section a heading and a list', () => {
+    const mail = composeDailyReport(data({ loops: [loop('tack', 'Tack room <east>', { location: 'Yard & lane' })] }), envelope());
+    expect(mail.html).toMatch(/<h1[^>]*>\[REPORT\] Ridgeway Farm: daily report Tue 1 Dec — all loops healthy \(1\)<\/h1>/);
+    expect(mail.html).toContain('<p>Daily report for Ridgeway Farm, made Tue 1 Dec 2026, 07:00:00 GMT (2026-12-01 07:00:00 UTC).</p>');
+    expect(mail.html).toMatch(/<h2[^>]*>LOOPS NOW \(1\)<\/h2><ul><li>Tack room &lt;east&gt; \(Yard &amp; lane\): healthy since Mon 30 Nov 2026, 01:00:00 GMT<\/li><\/ul>/);
+    expect(mail.html).toMatch(/<h2[^>]*>MAIL<\/h2><ul><li>0 sent, 0 failed attempts in the period; 2 waiting in the outbox\.<\/li><\/ul>/);
+    expect(mail.html).toContain('<p>Next report: Wed 2 Dec 2026, 07:00:00 GMT (2026-12-02 07:00:00 UTC).</p>');
+    expect(mail.html).toContain('<p>Test the whole chain (remote node to phone) after installation and each autumn.</p>');
+    expect(mail.html).toContain('replies are not read');
+    expect(mail.html).toMatch(/<\/h1>\n<p>Daily report for /);
+    const two = composeDailyReport(data({ loops: [loop('well', 'Well pit'), loop('lambing', 'Lambing shed')] }), envelope());
+    expect(two.html).toMatch(/<li>Well pit: healthy since [^<]*<\/li><li>Lambing shed: healthy since [^<]*<\/li><\/ul>/);
+    expect(mail.html).toMatch(/<title>\[REPORT\] Ridgeway Farm: daily report Tue 1 Dec — all loops healthy \(1\)<\/title>/);
+  });
+
+  it('the text part: subject, opening, each section underlined, closing, footer', () => {
+    const text = composeDailyReport(data(), envelope()).text;
+    expect(text.startsWith('[REPORT] Ridgeway Farm: daily report Tue 1 Dec — all loops healthy (1)\n\nDaily report for Ridgeway Farm')).toBe(true);
+    expect(text).toContain('\nLOOPS NOW (1)\n=============\n  Well pit: healthy since Mon 30 Nov 2026, 01:00:00 GMT\n\n');
+    expect(text).toContain('\nMAIL\n====\n');
+    expect(text).toContain(`Next report: Wed 2 Dec 2026, 07:00:00 GMT (2026-12-02 07:00:00 UTC).\n${REPORT_DEAD_MAN_LINE}\n`);
+    expect(text).toMatch(/\n--\nSent automatically by pairwatch at Ridgeway Farm; replies are not read\.\nThe board: http:\/\/127\.0\.0\.1:8080\/\n/);
+    // Blank lines: after the opening, and between the closing and the footer.
+    expect(text).toContain('Monitoring has run since Sat 21 Nov 2026, 07:00:00 GMT (2026-11-21 07:00:00 UTC).\n\nLOOPS NOW (1)\n');
+    expect(text).toContain('Test the whole chain (remote node to phone) after installation and each autumn.\n\n--\n');
+  });
+
+  it('a loop out of service keeps its location and shows the note only when there is one', () => {
+    const mail = composeDailyReport(data({
+      loops: [loop('bay3', 'Hay bay 3', { location: 'Long barn', inService: false, serviceNote: 'roof repair' }), loop('bay4', 'Hay bay 4', { location: 'Long barn', inService: false })],
+    }), envelope());
+    expect(lines(mail).slice(0, 2)).toEqual(['Hay bay 3 (Long barn): OUT OF SERVICE — roof repair', 'Hay bay 4 (Long barn): OUT OF SERVICE']);
+  });
+
+  it('a decoder that lost everything it sent reads 100 % lost; a zero-length period divides by nothing', () => {
+    const mail = composeDailyReport(data({
+      periodMs: 0,
+      decoders: [{ id: 'yard', name: 'Yard decoder', status: 'disconnected', connectedMsInPeriod: 0, restarts: 0, frames: 0, badFrames: 0, lostFrames: 5 }],
+    }), envelope());
+    expect(mail.text).toContain('\n  Yard decoder: disconnected; connected 0 s of 0 s (0.0 %), 0 restarts, 0 frames, 5 lost (100.000 %), 0 garbled\n');
+    expect(mail.text).toContain('ALARM, LAST 0 S (0)');
+  });
+
+  it('an acknowledgement without a note adds nothing after the time', () => {
+    const mail = composeDailyReport(data({ alarms: [raised(1, { state: 'acknowledged', ackedAt: now - HOUR, ackedBy: 'ann' })] }), envelope());
+    expect(lines(mail)).toContain('Well pit — tripped: raised Tue 1 Dec 2026, 04:00:00 GMT; still present; acknowledged by ann Tue 1 Dec 2026, 06:00:00 GMT; now active, acknowledged');
+  });
+
+  it('alarms of one priority oldest first, whatever order they came in', () => {
+    const mail = composeDailyReport(data({
+      loops: [loop('well', 'Well pit'), loop('lambing', 'Lambing shed')],
+      alarms: [raised(2, { loopId: 'lambing', raisedAt: now - HOUR }), raised(1, { raisedAt: now - 5 * HOUR }), raised(3, { loopId: 'well', raisedAt: now - 2 * HOUR })],
+    }), envelope());
+    expect(lines(mail).filter((l) => l.includes(' — tripped: raised ')).map((l) => l.slice(0, 40))).toEqual([
+      'Well pit — tripped: raised Tue 1 Dec 202',
+      'Well pit — tripped: raised Tue 1 Dec 202',
+      'Lambing shed — tripped: raised Tue 1 Dec',
+    ]);
+    expect(lines(mail).filter((l) => l.includes(' — tripped: raised ')).map((l) => /raised \w+ \d+ \w+ \d+, (\d\d:\d\d)/.exec(l)![1])).toEqual(['02:00', '05:00', '06:00']);
+  });
+});
+
+describe('start and stop mails: the rest', () => {
+  const lifecycle = { siteName: 'Ridgeway Farm', timeZone: 'Europe/London', publicUrl: 'http://127.0.0.1:8080', at: now, loopCount: 3, decoderCount: 1, nextReportAt: null };
+  const env = { from: 'pairwatch <monitor@ridgeway.example>', to: ['office@ridgeway.example'], newMessageId: () => '<l1@pairwatch.ridgeway.example>' };
+
+  it('a stop with several loops says they are not watched, in the plural', () => {
+    const mail = composeLifecycleMail('stopped', lifecycle, env);
+    expect(mail.text).toContain('\nIts 3 loops are NOT watched until it is started again: no alarms, no daily report.\n');
+    expect(mail.text).toContain('\npairwatch was stopped on purpose at Tue 1 Dec 2026, 07:00:00 GMT (2026-12-01 07:00:00 UTC).\n');
+  });
+
+  it('a start without a version names no version', () => {
+    expect(composeLifecycleMail('started', lifecycle, env).text).toContain('\npairwatch started at Tue 1 Dec 2026, 07:00:00 GMT (2026-12-01 07:00:00 UTC).\n');
+  });
+
+  it('a lifecycle mail: its own Message-ID, about no alarm, priority system, with the subject as HTML heading and title', () => {
+    const mail = composeLifecycleMail('stopped', { ...lifecycle, reason: 'stopped by the service manager (SIGTERM)' }, env);
+    expect(mail).toMatchObject({ messageId: '<l1@pairwatch.ridgeway.example>', kind: 'lifecycle', priority: 'system', alarmIds: [], to: ['office@ridgeway.example'], from: 'pairwatch <monitor@ridgeway.example>' });
+    expect(mail.headers).toEqual({ 'Auto-Submitted': 'auto-generated' });
+    expect(mail.text.startsWith('[SYSTEM] Ridgeway Farm: monitoring stopped on purpose\n\n')).toBe(true);
+    expect(mail.html).toMatch(/<h1[^>]*>\[SYSTEM\] Ridgeway Farm: monitoring stopped on purpose<\/h1>/);
+    expect(mail.html).toContain('<title>[SYSTEM] Ridgeway Farm: monitoring stopped on purpose</title>');
+    expect(mail.html).toMatch(/<\/h1>\n<p>pairwatch was stopped on purpose at /);
+    expect(mail.text).toContain('no alarms, no daily report.\n\n--\n');
+    expect(mail.html).toContain('<p>Its 3 loops are NOT watched until it is started again: no alarms, no daily report.</p>');
+    expect(mail.html).toContain('Sent automatically by pairwatch at Ridgeway Farm; replies are not read.');
+    expect(mail.text).toContain('\n--\nSent automatically by pairwatch at Ridgeway Farm; replies are not read.\n');
+  });
+});
+
+describe('daily report: how an alarm stands', () => {
+  it('a latched alarm whose condition has gone reads "back to normal — still needs acknowledging", not active', () => {
+    const mail = composeDailyReport(data({ alarms: [raised(1, { clearedAt: now - HOUR })] }), envelope());
+    expect(lines(mail)).toContain('Well pit — tripped: raised Tue 1 Dec 2026, 04:00:00 GMT; back to normal Tue 1 Dec 2026, 06:00:00 GMT; now back to normal — still needs acknowledging');
+  });
+
+  it('an alarm on a loop no longer configured is named by the loop id', () => {
+    const mail = composeDailyReport(data({ alarms: [raised(1, { source: 'silo', loopId: 'silo' })] }), envelope());
+    expect(lines(mail)).toContain('Loop silo — tripped: raised Tue 1 Dec 2026, 04:00:00 GMT; still present; now active, not acknowledged');
+  });
+});

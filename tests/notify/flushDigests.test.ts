@@ -2,7 +2,7 @@ import { afterEach, describe, expect, it } from 'vitest';
 import { flushDigests } from '../../src/notify/flushDigests.js';
 import { queueNotices } from '../../src/notify/noticeQueue.js';
 import { dueOutbox } from '../../src/store/outboxRepo.js';
-import { listPendingNotices } from '../../src/store/pendingNoticeRepo.js';
+import { insertPendingNotice, listPendingNotices } from '../../src/store/pendingNoticeRepo.js';
 import { insertAlarm, openTestDb, type TestDb } from './helpers/notifyDb.js';
 import { settings } from './helpers/fixtures.js';
 
@@ -57,5 +57,51 @@ describe('flushDigests (real SQLite)', () => {
     expect(listPendingNotices(t.db)).toHaveLength(2);
     expect(dueOutbox(t.db, t0)).toEqual([]);
     expect((t.db.prepare('SELECT thread_message_id AS id FROM alarms').get() as { id: string | null }).id).toBeNull();
+  });
+
+  it('every later mail about an alarm replies to its first mail, not to the one before it (RFC 5322 §3.6.4)', () => {
+    t = openTestDb();
+    const a = insertAlarm(t.db, { loopId: 'well', condition: 'tripped', priority: 'alarm', raisedAt: t0 });
+    const s = settings();
+    queueNotices(t.db, { kind: 'notify', alarmId: a, contactIds: ['office'], notice: 'raised', actor: null, note: null }, t0, 0);
+    const [first] = flushDigests(t.db, t0, s).messageIds;
+    queueNotices(t.db, { kind: 'notify', alarmId: a, contactIds: ['office'], notice: 'repeat', actor: null, note: null }, t0 + 1, 0);
+    const [second] = flushDigests(t.db, t0 + 1, s).messageIds;
+    queueNotices(t.db, { kind: 'notify', alarmId: a, contactIds: ['office'], notice: 'repeat', actor: null, note: null }, t0 + 2, 0);
+    const [third] = flushDigests(t.db, t0 + 2, s).messageIds;
+    const byId = new Map(dueOutbox(t.db, t0 + 2).map((r) => [r.messageId, r]));
+    expect(byId.get(second!)!.headers['In-Reply-To']).toBe(first);
+    expect(byId.get(third!)!.headers['In-Reply-To']).toBe(first);
+    expect(byId.get(third!)!.headers['References']).toBe(first);
+  });
+
+  it('each mail says who else was told, from the recipients recorded when the notices were queued', () => {
+    t = openTestDb();
+    const a = insertAlarm(t.db, { loopId: 'well', condition: 'tripped', priority: 'alarm', raisedAt: t0 });
+    queueNotices(t.db, { kind: 'notify', alarmId: a, contactIds: ['office', 'oncall'], notice: 'raised', actor: null, note: null }, t0, 0);
+    flushDigests(t.db, t0, settings());
+    const [office, oncall] = dueOutbox(t.db, t0);
+    expect(office!.to).toEqual(['"Farm office" <office@ridgeway.example>']);
+    expect(office!.text).toMatch(/\n {2}Also told: +On-call phone\n/);
+    expect(oncall!.text).toMatch(/\n {2}Also told: +Farm office\n/);
+  });
+
+  it('a contact no longer configured: one audit row per alarm, however many notices were waiting about it', () => {
+    t = openTestDb();
+    const a = insertAlarm(t.db, { loopId: 'well', condition: 'tripped', priority: 'alarm', raisedAt: t0 });
+    queueNotices(t.db, { kind: 'notify', alarmId: a, contactIds: ['gone'], notice: 'raised', actor: null, note: null }, t0, 0);
+    queueNotices(t.db, { kind: 'notify', alarmId: a, contactIds: ['gone'], notice: 'repeat', actor: null, note: null }, t0, 0);
+    expect(flushDigests(t.db, t0, settings()).unknownContacts).toEqual(['gone']);
+    expect(t.db.prepare("SELECT alarm_id AS alarmId FROM audit WHERE action = 'mail-failed'").all()).toEqual([{ alarmId: a }]);
+  });
+
+  it('a waiting notice that names no alarm adds no audit row of its own when its contact is gone', () => {
+    t = openTestDb();
+    const a = insertAlarm(t.db, { loopId: 'well', condition: 'tripped', priority: 'alarm', raisedAt: t0 });
+    queueNotices(t.db, { kind: 'notify', alarmId: a, contactIds: ['gone'], notice: 'raised', actor: null, note: null }, t0, 0);
+    insertPendingNotice(t.db, { contactId: 'gone', alarmId: null, kind: 'repeat', createdAt: t0, dueAt: t0, actor: null, note: null });
+    flushDigests(t.db, t0, settings());
+    expect(t.db.prepare("SELECT alarm_id AS alarmId FROM audit WHERE action = 'mail-failed'").all()).toEqual([{ alarmId: a }]);
+    expect(listPendingNotices(t.db)).toEqual([]);
   });
 });

@@ -68,4 +68,18 @@ describe('Message-ID (RFC 5322 §3.6.4)', () => {
     }
     expect(seen.size).toBe(20_000);
   });
+
+  it('takes the domain from the end of the From mailbox, with or without angle brackets and trailing space (RFC 5322 §3.4)', () => {
+    expect(messageIdDomain('pairwatch <monitor@Mail2.Ridgeway.example>  ')).toBe('Mail2.Ridgeway.example');
+    expect(messageIdDomain('monitor@ridgeway.example ')).toBe('ridgeway.example');
+    expect(messageIdDomain('"a@b" <monitor@ridgeway.example>')).toBe('ridgeway.example');
+  });
+
+  it('a From with no usable domain falls back to this host under .invalid, never to "undefined"', () => {
+    const host = `${hostname().replace(/[^A-Za-z0-9.-]/g, '') || 'localhost'}.invalid`;
+    expect(messageIdDomain('pairwatch')).toBe(host);
+    expect(messageIdDomain('pairwatch <monitor@localhost>')).toBe(host);
+    expect(messageIdDomain('monitor@ridgeway.example> trailing words')).toBe(host);
+    expect(MSG_ID.test(createMessageIdFactory(messageIdDomain('pairwatch'))())).toBe(true);
+  });
 });

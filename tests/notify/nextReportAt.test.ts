@@ -80,4 +80,39 @@ describe('nextReportAt, bad input', () => {
     expect(() => nextReportAt(0, '7am', 'UTC')).toThrow(NotifyError);
     expect(() => nextReportAt(0, '24:00', 'UTC')).toThrow(/report\.at/);
   });
+
+  // README report.at: "local time (site time zone)", written HH:MM on the 24-hour clock (ISO 8601 §4.2.2.3: hh 00–23, mm 00–59).
+  it.each([' 07:00', '07:00 ', '7:00', '07:0', '0700', '07-00', '07:60', '07:6x', '24:00', '29:00', '30:00', '2a:00', 'x07:00', '07:00x', ''])(
+    'refuses %j, naming report.at and the value',
+    (bad) => {
+      let caught: unknown;
+      try {
+        nextReportAt(0, bad, 'UTC');
+      } catch (error) {
+        caught = error;
+      }
+      expect(caught).toBeInstanceOf(NotifyError);
+      expect((caught as NotifyError).code).toBe('PW_BAD_REPORT_TIME');
+      expect((caught as NotifyError).message).toBe(`report.at: "${bad}" is not a local time as HH:MM`);
+    },
+  );
+
+  it.each([
+    ['00:00', '2026-01-16T00:00:00Z'],
+    ['09:59', '2026-01-16T09:59:00Z'],
+    ['10:00', '2026-01-16T10:00:00Z'],
+    ['12:01', '2026-01-15T12:01:00Z'],
+    ['19:45', '2026-01-15T19:45:00Z'],
+    ['20:00', '2026-01-15T20:00:00Z'],
+    ['23:59', '2026-01-15T23:59:00Z'],
+  ])('accepts %s: in UTC from noon on 15 January 2026 it falls at %s', (hhmm, expected) => {
+    expect(nextReportAt(at('2026-01-15T12:00:00Z'), hhmm, 'UTC')).toBe(at(expected));
+  });
+
+  it('several zones in one process each keep their own offsets', () => {
+    const noon = at('2026-07-01T12:00:00Z');
+    expect(nextReportAt(noon, '18:00', 'Europe/London')).toBe(at('2026-07-01T17:00:00Z'));
+    expect(nextReportAt(noon, '18:00', 'America/New_York')).toBe(at('2026-07-01T22:00:00Z'));
+    expect(nextReportAt(noon, '18:00', 'Europe/London')).toBe(at('2026-07-01T17:00:00Z'));
+  });
 });

@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { composeNoticeMail, REPLY_HINT, type NoticeComposeContext } from '../../src/notify/composeNoticeMail.js';
 import type { Digest, NoticeAlarm, PendingNotice } from '../../src/alarms/noticeTypes.js';
 import { sampleNoticeAlarm } from '../helpers/sampleAlarm.js';
+import { checkReplyToken } from '../../src/notify/replyToken.js';
 import { secret, settings } from './helpers/fixtures.js';
 
 /**
@@ -73,6 +74,32 @@ describe('the subject of a mail about one alarm', () => {
     const mail = composeNoticeMail(digest([notice(7, 'escalated')]), ctx([]));
     expect(mail.subject).toBe('[SYSTEM] Ridgeway Farm: Alarm #7 — alarm #7 (no longer on record)');
     expect(row(mail.text, 'Note')).toBe('This alarm is no longer on record; see the board for the current state.');
+    expect(mail.text).toContain('\nAlarm #7\n  Note:');
+  });
+
+  it('a mail about a missing alarm and one on record names both, whatever order they were queued in', () => {
+    const system = alarm({ id: 2, source: 'system', loopId: null, condition: 'mail-failing', priority: 'system' });
+    const mail = composeNoticeMail(digest([notice(2, 'raised'), notice(7, 'repeat')]), ctx([system]));
+    expect(mail.subject).toMatch(/^\[SYSTEM\] Ridgeway Farm: 2 conditions — /);
+    expect(mail.subject).toContain('Alarm #7 alarm #7 (no longer on record)');
+    expect(mail.subject).toContain('Monitor mail failing');
+    expect([...mail.alarmIds].sort()).toEqual([2, 7]);
+    const reversed = composeNoticeMail(digest([notice(7, 'repeat'), notice(2, 'raised')]), ctx([system]));
+    expect(reversed.subject).toContain('Alarm #7 alarm #7 (no longer on record)');
+    expect([...reversed.alarmIds].sort()).toEqual([2, 7]);
+  });
+
+  it('alarms of one priority raised at the same moment are listed by alarm number', () => {
+    const same = [3, 1, 4, 2, 5].map((id) => alarm({ id, source: `bay${id}`, loopId: `bay${id}` }));
+    const mail = composeNoticeMail(digest([3, 1, 4, 2, 5].map((id) => notice(id, 'raised'))), ctx(same));
+    expect(mail.alarmIds).toEqual([1, 2, 3, 4, 5]);
+    expect(mail.subject).toBe('[ALARM] Ridgeway Farm: 5 conditions — Hay bay 1 tripped, Hay bay 2 tripped, Hay bay 3 tripped, Hay bay 4 tripped, Hay bay 5 tripped');
+  });
+
+  it('without any decoders configured, a decoder alarm is named by its source and still gets advice', () => {
+    const mail = mailFor(alarm({ source: 'yard', loopId: null, condition: 'offline', priority: 'trouble' }), notice(1, 'raised'), { decoders: undefined });
+    expect(mail.subject).toBe('[TROUBLE] Ridgeway Farm: yard — decoder offline');
+    expect(row(mail.text, 'What to check')).toMatch(/\S/);
   });
 });
 
@@ -169,5 +196,145 @@ describe('acknowledging by reply (mail.imap)', () => {
     expect(mail.subject).toBe('[ALARM] Ridgeway Farm: Well pit — tripped, acknowledged by ann');
     expect(mail.headers['Reply-To']).toBeUndefined();
     expect(mail.text).not.toContain(REPLY_HINT);
+  });
+});
+
+describe('more body rows', () => {
+  it('an alarm nobody has acknowledged has no "Acknowledged" and no "Back to normal" row; "What it means" is there', () => {
+    const text = mailFor(alarm(), notice(1, 'raised')).text;
+    expect(row(text, 'Acknowledged')).toBeNull();
+    expect(row(text, 'Their note')).toBeNull();
+    expect(row(text, 'Back to normal')).toBeNull();
+    expect(row(text, 'What it means')).toMatch(/^tripped: /);
+  });
+
+  it('an acknowledgement by nobody named reads "by someone"', () => {
+    const acked = alarm({ state: 'acknowledged', ackedAt: t0 + MIN });
+    expect(row(mailFor(acked, notice(1, 'acknowledged')).text, 'Acknowledged')).toBe('by someone at Tue 1 Dec 2026, 03:01:00 GMT (2026-12-01 03:01:00 UTC)');
+  });
+
+  it('"Since" gives the raise time in the site zone and UTC, and how long ago', () => {
+    // Raised 03:00 UTC (03:00 GMT in December), mail written 04:05.
+    expect(row(mailFor(alarm(), notice(1, 'raised')).text, 'Since')).toBe('Tue 1 Dec 2026, 03:00:00 GMT (2026-12-01 03:00:00 UTC), 1 h 5 min ago');
+  });
+
+  it('"Loop" gives the loop id when the name differs from it, and is left out when it would repeat the name or there is no loop', () => {
+    expect(row(mailFor(alarm(), notice(1, 'raised')).text, 'Loop')).toBe('well');
+    const sameName = { loops: [{ id: 'silo', name: 'silo', location: 'Yard' }] };
+    const silo = mailFor(alarm({ source: 'silo', loopId: 'silo' }), notice(1, 'raised'), sameName).text;
+    expect(row(silo, 'Loop')).toBeNull();
+    expect(row(silo, 'Where')).toBe('Yard');
+    const decoder = mailFor(alarm({ source: 'main', loopId: null, condition: 'offline', priority: 'trouble' }), notice(1, 'raised')).text;
+    expect(row(decoder, 'Loop')).toBeNull();
+    expect(row(decoder, 'Where')).toBeNull();
+  });
+
+  it('a mail about an alarm acknowledged earlier names who acknowledged it and their note, from the alarm itself', () => {
+    const closed = alarm({ state: 'normal', active: false, clearedAt: t0 + 2 * MIN, ackedAt: t0 + MIN, ackedBy: 'ann', note: 'heater reset' });
+    const text = mailFor(closed, notice(1, 'cleared')).text;
+    expect(row(text, 'Acknowledged')).toBe('by ann at Tue 1 Dec 2026, 03:01:00 GMT (2026-12-01 03:01:00 UTC)');
+    expect(row(text, 'Their note')).toBe('“heater reset”');
+    // A note carried by a notice that is not the acknowledgement is not the acknowledger's note.
+    expect(row(mailFor(closed, notice(1, 'cleared', { note: 'cable fixed' })).text, 'Their note')).toBe('“heater reset”');
+    // The acknowledgement's own note wins over the one stored on the alarm.
+    const acked = alarm({ state: 'acknowledged', ackedAt: t0 + MIN, ackedBy: 'ann', note: 'older note' });
+    expect(row(mailFor(acked, notice(1, 'acknowledged', { actor: 'ann', note: 'on my way' })).text, 'Their note')).toBe('“on my way”');
+    expect(row(mailFor(acked, notice(1, 'acknowledged', { actor: 'ann' })).text, 'Their note')).toBe('“older note”');
+  });
+
+  it('the acknowledgement notice names who acted, even when the alarm row names someone else', () => {
+    const acked = alarm({ state: 'acknowledged', ackedAt: t0 + MIN, ackedBy: 'Farm office (mail link)' });
+    const mail = mailFor(acked, notice(1, 'acknowledged', { actor: 'ann' }));
+    expect(mail.subject).toBe('[ALARM] Ridgeway Farm: Well pit — tripped, acknowledged by ann');
+    expect(mailFor(acked, notice(1, 'acknowledged')).subject).toBe('[ALARM] Ridgeway Farm: Well pit — tripped, acknowledged by Farm office (mail link)');
+  });
+
+  it('a person\'s words keep to one line: every kind of line break becomes one space', () => {
+    const acked = alarm({ state: 'acknowledged', ackedAt: t0 + MIN, ackedBy: 'ann' });
+    const text = mailFor(acked, notice(1, 'acknowledged', { actor: 'ann', note: 'pipes\r\n\r\nok\u2028now\u2029fine\nthanks' })).text;
+    expect(row(text, 'Their note')).toBe('“pipes ok now fine thanks”');
+  });
+
+  it('a shelving by the monitor names nobody; an alarm not shelved has no "Shelved" row even with a shelf time left on it', () => {
+    const shelved = alarm({ state: 'shelved', shelvedUntil: t0 + 120 * MIN, shelveReason: null });
+    expect(row(mailFor(shelved, notice(1, 'shelved')).text, 'Shelved')).toBe('until Tue 1 Dec 2026, 05:00:00 GMT (2026-12-01 05:00:00 UTC)');
+    // The shelving's actor is named only on the mail about the shelving itself.
+    expect(row(mailFor(shelved, notice(1, 'repeat', { actor: 'ann' })).text, 'Shelved')).toBe('until Tue 1 Dec 2026, 05:00:00 GMT (2026-12-01 05:00:00 UTC)');
+    expect(row(mailFor(alarm({ shelvedUntil: t0 + 120 * MIN }), notice(1, 'unshelved')).text, 'Shelved')).toBeNull();
+    expect(row(mailFor(alarm({ state: 'shelved', shelvedUntil: null }), notice(1, 'shelved')).text, 'Shelved')).toBeNull();
+  });
+
+  it('rows line up: each label and its colon padded to 16 characters after a two-space indent', () => {
+    const lines = mailFor(alarm(), notice(1, 'raised')).text.split('\n').filter((l) => /^ {2}[A-Z][a-z ]+:/.test(l));
+    expect(lines.length).toBeGreaterThanOrEqual(6);
+    for (const line of lines) expect(line[18], line).not.toBe(' ');
+    // "Status:" is 7 characters, so 9 spaces follow it.
+    expect(lines.find((l) => l.startsWith('  Status:'))).toBe('  Status:         active, not acknowledged');
+  });
+});
+
+describe('subject length', () => {
+  // The project's limit (common practice: about what a phone's mail list shows on two lines): 160 characters.
+  const two = (a: string, b: string) => ({ loops: [{ id: 'a', name: a, location: null }, { id: 'b', name: b, location: null }] });
+  const both = [alarm({ id: 1, source: 'a', loopId: 'a' }), alarm({ id: 2, source: 'b', loopId: 'b' })];
+  const mail = (a: string, b: string) => composeNoticeMail(digest([notice(1, 'raised'), notice(2, 'raised')]), ctx(both, two(a, b)));
+
+  it('a list that comes to exactly 160 characters is kept whole; one more character and the last is counted instead', () => {
+    const a = 'A'.repeat(52);
+    const whole = `[ALARM] Ridgeway Farm: 2 conditions — ${a} tripped, ${'B'.repeat(52)} tripped`;
+    expect(whole).toHaveLength(160);
+    expect(mail(a, 'B'.repeat(52)).subject).toBe(whole);
+    expect(mail(a, 'B'.repeat(53)).subject).toBe(`[ALARM] Ridgeway Farm: 2 conditions — ${a} tripped, and 1 more`);
+  });
+
+  it('a middle condition is kept only when the count of those after it still fits ("and 1 more" is 12 characters)', () => {
+    const three = { loops: ['a', 'b', 'c'].map((id, i) => ({ id, name: ['A'.repeat(46), 'B'.repeat(46), 'Cow shed'][i]!, location: null })) };
+    const alarms = ['a', 'b', 'c'].map((id, i) => alarm({ id: i + 1, source: id, loopId: id }));
+    const subject = composeNoticeMail(digest([notice(1, 'raised'), notice(2, 'raised'), notice(3, 'raised')]), ctx(alarms, three)).subject;
+    const expected = `[ALARM] Ridgeway Farm: 3 conditions — ${'A'.repeat(46)} tripped, ${'B'.repeat(46)} tripped, and 1 more`;
+    expect(expected).toHaveLength(160);
+    expect(subject).toBe(expected);
+  });
+
+  it('the first condition is always named, however long its name', () => {
+    const long = 'L'.repeat(170);
+    expect(mail(long, 'Short').subject).toBe(`[ALARM] Ridgeway Farm: 2 conditions — ${long} tripped, and 1 more`);
+  });
+});
+
+describe('replies carry a reference that only this mail and this contact can use', () => {
+  const reply = { secret, ttlMs: 86_400_000, address: 'monitor@ridgeway.example' };
+
+  it('the reference verifies for the mail\'s Message-ID and its contact until web.ack_link_ttl has passed (README: mail.imap)', () => {
+    const now = t0 + 65 * MIN;
+    const mail = mailFor(alarm(), notice(1, 'raised'), { reply });
+    const ref = /\[ref (\S+)\]$/.exec(mail.subject)![1]!;
+    const claims = { messageId: mail.messageId, recipient: 'office' };
+    expect(checkReplyToken(ref, claims, secret, now + 86_400_000 - 1)).toEqual({ ok: true, expiresAt: now + 86_400_000 });
+    expect(checkReplyToken(ref, claims, secret, now + 86_400_000)).toEqual({ ok: false, reason: 'expired' });
+    expect(checkReplyToken(ref, { ...claims, recipient: 'oncall' }, secret, now)).toEqual({ ok: false, reason: 'forged' });
+    expect(checkReplyToken(ref, { ...claims, messageId: '<other@pairwatch.ridgeway.example>' }, secret, now)).toEqual({ ok: false, reason: 'forged' });
+  });
+
+  it('one alarm still waiting among others already acknowledged is enough for a reference; the hint ends before the footer', () => {
+    const waiting = alarm({ id: 2, source: 'lambing', loopId: 'lambing', raisedAt: t0 + MIN });
+    const acked = alarm({ state: 'acknowledged', ackedAt: t0 + MIN, ackedBy: 'ann' });
+    const mail = composeNoticeMail(digest([notice(1, 'acknowledged', { actor: 'ann' }), notice(2, 'raised')]), ctx([acked, waiting], { reply }));
+    const ref = /\[ref (\S+)\]$/.exec(mail.subject)?.[1];
+    expect(ref).toBeTruthy();
+    expect(mail.text).toContain(`\nReference: ${ref}\n\n--\n`);
+  });
+
+  it('the HTML part says the same, and its footer says a reply is read', () => {
+    const mail = mailFor(alarm(), notice(1, 'raised'), { reply });
+    const ref = /\[ref (\S+)\]$/.exec(mail.subject)![1]!;
+    expect(mail.html).toContain(`<strong>${REPLY_HINT}</strong>`);
+    expect(mail.html).toContain(`Reference: ${ref}`);
+    expect(mail.html).toContain('a reply is read by the monitor, not by a person');
+    expect(mail.html).not.toContain('replies are not read');
+    // Without mail.imap the footer says the opposite, in both parts.
+    const plain = mailFor(alarm(), notice(1, 'raised'));
+    expect(plain.html).toContain('replies are not read');
+    expect(plain.text).toContain('replies are not read');
   });
 });

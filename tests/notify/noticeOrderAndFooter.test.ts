@@ -28,6 +28,15 @@ describe('planDigests order', () => {
   });
 });
 
+describe('planDigests order, many contacts', () => {
+  it('contacts due at the same moment go in contact-id order, whatever order they were handed over in', () => {
+    const ids = ['vet', 'barn', 'oncall', 'yard', 'office', 'dairy', 'apiary', 'mill'];
+    const pending = ids.map((id, i) => notice(i + 1, id, t0, t0 + 9000));
+    expect(planDigests(pending, t0 + 10_000).map((d) => d.contactId)).toEqual(['apiary', 'barn', 'dairy', 'mill', 'office', 'oncall', 'vet', 'yard']);
+    expect(planDigests([...pending].reverse(), t0 + 10_000).map((d) => d.contactId)).toEqual(['apiary', 'barn', 'dairy', 'mill', 'office', 'oncall', 'vet', 'yard']);
+  });
+});
+
 describe('queueNotices (real SQLite)', () => {
   let t: TestDb;
   afterEach(() => t?.cleanup());

@@ -86,4 +86,19 @@ describe('queueNotices (real SQLite)', () => {
     queueNotices(t.db, { kind: 'notify', alarmId, contactIds: ['office'], notice: 'acknowledged', actor: 'ann', note: 'on my way' }, t0, WINDOW);
     expect(listPendingNotices(t.db)[0]).toMatchObject({ kind: 'acknowledged', actor: 'ann', note: 'on my way', alarmId });
   });
+
+  it('a negative window (never accepted from the config) is read as 0: due at once, never in the past', () => {
+    t = openTestDb();
+    const alarmId = insertAlarm(t.db, { loopId: 'well', condition: 'tripped', priority: 'alarm', raisedAt: t0 });
+    queueNotices(t.db, { kind: 'notify', alarmId, contactIds: ['office'], notice: 'raised', actor: null, note: null }, t0, -5_000);
+    expect(listPendingNotices(t.db).map((r) => r.dueAt)).toEqual([t0]);
+  });
+
+  it('records when each contact was told, and each contact once', () => {
+    t = openTestDb();
+    const alarmId = insertAlarm(t.db, { loopId: 'well', condition: 'tripped', priority: 'alarm', raisedAt: t0 });
+    queueNotices(t.db, { kind: 'notify', alarmId, contactIds: ['office', 'office'], notice: 'raised', actor: null, note: null }, t0 + 7, WINDOW);
+    expect(recipientsOf(t.db, alarmId)).toEqual([{ alarmId, contactId: 'office', firstQueuedAt: t0 + 7 }]);
+    expect(listPendingNotices(t.db)).toEqual([expect.objectContaining({ contactId: 'office', createdAt: t0 + 7, dueAt: t0 + 7 + WINDOW, kind: 'raised' })]);
+  });
 });

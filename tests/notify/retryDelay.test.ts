@@ -49,4 +49,29 @@ describe('retryDelayMs', () => {
     const spread = new Set(Array.from({ length: 50 }, (_, key) => retryDelayMs(3, { ...options, jitterKey: key })));
     expect(spread.size).toBeGreaterThan(10);
   });
+
+  it('a failure count below one or with a fraction counts as whole failures, at least the first (README: 15 s, doubling)', () => {
+    const options = { firstMs: 15_000, maxMs: 900_000 };
+    expect(retryDelayMs(0, options)).toBe(15_000);
+    expect(retryDelayMs(-3, options)).toBe(15_000);
+    expect(retryDelayMs(2.7, options)).toBe(30_000);
+    expect(retryDelayMs(3, options)).toBe(60_000);
+  });
+
+  it('a jitter share above 1 takes at most the whole delay; one below 0 takes nothing', () => {
+    const plain = { firstMs: 15_000, maxMs: 900_000 };
+    const wide = Array.from({ length: 40 }, (_, key) => retryDelayMs(4, { ...plain, jitterRatio: 5, jitterKey: key }));
+    for (const d of wide) {
+      expect(d).toBeGreaterThanOrEqual(0);
+      expect(d).toBeLessThanOrEqual(120_000);
+    }
+    // Taking up to all of it, some delays fall below what a share of 0.5 would allow.
+    expect(wide.some((d) => d < 60_000)).toBe(true);
+    for (let key = 0; key < 20; key++) expect(retryDelayMs(4, { ...plain, jitterRatio: -1, jitterKey: key })).toBe(120_000);
+  });
+
+  it('without a key every row gets the same jitter for the same attempt', () => {
+    const options = { firstMs: 15_000, maxMs: 900_000, jitterRatio: 0.5 };
+    expect(retryDelayMs(2, options)).toBe(retryDelayMs(2, { ...options, jitterKey: 0 }));
+  });
 });
