@@ -144,8 +144,10 @@ interface LoopRun {
 
 /** The line-quality counters, safe to change: copied from the caller's state on the step's first change. */
 function ownQuality(run: LoopRun): LineQuality {
+  // Stryker disable next-line ConditionalExpression: copying an owned copy again gives the same counters; it only costs an allocation
   if (!run.qualityOwned) {
     run.s.quality = { ...run.s.quality };
+    // Stryker disable next-line BooleanLiteral: as above, a second copy holds the same counters
     run.qualityOwned = true;
   }
   return run.s.quality;
@@ -168,6 +170,7 @@ function applyInput(run: LoopRun, input: LoopInput): void {
       if (count === 0) return;
       ownQuality(run).lostFrames += count;
       s.spanTimed = false;
+      // Stryker disable next-line BooleanLiteral: read only together with spanTimed, cleared on the line above
       s.highMayBePulse = false;
       s.lostSinceSeen = true;
       // The count is the decoder's: the frames may as well have been other loops'. One frame cannot hide
@@ -177,6 +180,7 @@ function applyInput(run: LoopRun, input: LoopInput): void {
       // and the trip window gets the benefit of the doubt.
       const mayHidePulse = count >= 2 && s.band === 'N';
       if (mayHidePulse || s.band !== 'N') breakRhythm(run);
+      // Stryker disable next-line ConditionalExpression: with nowUs null nothing was heard since a start, so there is no trip window and noteHiddenPulse does nothing
       if (mayHidePulse && s.nowUs !== null) noteHiddenPulse(run, s.nowUs, Math.max(s.nowUs, input.atUs) - run.w.pulseMinUs);
       return;
     }
@@ -220,14 +224,19 @@ function startOver(run: LoopRun, atUs: number, reason: string): void {
   s.nowUs = null;
   s.band = null;
   s.bandSinceUs = null;
+  // Stryker disable next-line BooleanLiteral: band is null now, and the first band input begins a span, which sets all three span flags before any is read
   s.highMayBePulse = false;
+  // Stryker disable next-line BooleanLiteral: as above
   s.spanTimed = false;
+  // Stryker disable next-line BooleanLiteral: as above
   s.spanStartKnown = false;
   s.spanFrom = null;
   s.tripFromUs = null;
   s.hiddenPulseUs = null;
+  // Stryker disable next-line BooleanLiteral: read only once a band is known, and the first band input clears it
   s.lostSinceSeen = false;
   s.lastPulseUs = null;
+  // Stryker disable next-line ArrayDeclaration: a non-number entry fails the window filter at the next fault entry
   s.faultEntriesUs = [];
   s.awaitingSpeech = false;
   breakRhythm(run);
@@ -253,9 +262,11 @@ function advanceLoop(run: LoopRun, toUs: number): void {
   // Each pass changes the state or the flag, so a few passes always settle; the bound guards odd settings.
   // Stryker disable next-line EqualityOperator,UpdateOperator: every pass returns or changes the state or flag, so the bound is never reached
   for (let pass = 0; pass < 6; pass++) {
+    // Stryker disable next-line ConditionalExpression,LogicalOperator: band and bandSinceUs are set and cleared together; with no band no window below can fire (no open, no trip, and no intermittent clear outside healthy)
     if (s.band === null || s.bandSinceUs === null) return;
 
     if (s.band === 'H') {
+      // Stryker disable next-line ConditionalExpression,StringLiteral: entering shorted again changes nothing, and no intermittent clear falls due outside healthy
       if (s.state === 'shorted') return;
       const shortAtUs = s.bandSinceUs + w.shortUs;
       if (shortAtUs > toUs) return;
@@ -265,7 +276,9 @@ function advanceLoop(run: LoopRun, toUs: number): void {
     }
 
     let faultAtUs: number | null = null;
+    // Stryker disable next-line ConditionalExpression,LogicalOperator,StringLiteral: at N the trip deadline replaces this value below; in open, entering open again changes nothing; an intermittent clear needs healthy, which is neither
     if (s.band === 'O' && s.state !== 'open') faultAtUs = s.bandSinceUs + w.openUs;
+    // Stryker disable next-line StringLiteral: a tripped loop entering tripped again changes nothing
     const deadlineUs = s.band === 'N' && s.state !== 'tripped' ? tripDeadlineUs(run) : null;
     // A window that ran out while the band was O only trips once the band is N again.
     if (deadlineUs !== null) faultAtUs = Math.max(deadlineUs, s.bandSinceUs);

@@ -306,3 +306,46 @@ describe('stepLoop: purity', () => {
     expect(snapshot).toEqual(structuredClone(midPulse));
   });
 });
+
+/*
+ * README "Classification rules, exactly", at the points the 13:15 mutation run found untested. Each
+ * expected time is worked out by hand from the default settings, as above.
+ */
+describe('stepLoop: rules 3, 5 and 6 at their edges, and inputs that change nothing', () => {
+  it('a loss of no frames hides nothing: the pulse around it still counts (rule 10 needs a gap)', () => {
+    const inputs = [edge('N', 0), edge('H', 100), lost(0, 100.5), edge('N', 101), ...pulsesAt([600, 1100])];
+    expect(changes(classify(inputs).effects)).toEqual([['healthy', us(1101)]]);
+  });
+
+  it('two frames lost at N forget the previous pulse (rule 3): the next pulse has no interval and counts from 1', () => {
+    const inputs = [edge('N', 0), ...pulsesAt([100, 600]), lost(2, 900), ...pulsesAt([1100, 1600, 2100])];
+    const { effects } = classify(inputs);
+    expect(pulseEffects(effects).map((p) => p.intervalUs)).toEqual([null, us(500), null, us(500), us(500)]);
+    expect(changes(effects)).toEqual([['healthy', us(2101)]]);
+  });
+
+  it('one frame lost during an H span breaks the chain too: the span cannot be judged, nor the interval across it', () => {
+    const inputs = [edge('N', 0), ...pulsesAt([100, 600]), edge('H', 1100), lost(1, 1100.5), edge('N', 1101), ...pulsesAt([1600])];
+    expect(pulseEffects(classify(inputs).effects).map((p) => [p.atUs, p.intervalUs])).toEqual([[us(100), null], [us(600), us(500)], [us(1600), null]]);
+  });
+
+  it('an O span is open at its start + 200 ms even when the trip deadline falls inside it (rules 5 and 6)', () => {
+    // Healthy at 1101 ms; last pulse 1100 ms, so the trip deadline is 2600 ms, 100 ms into the O span from 2500 ms.
+    const inputs = [edge('N', 0), ...pulsesAt([100, 600, 1100]), edge('O', 2500), tick('O', 2750), tick('O', 3000)];
+    expect(changes(classify(inputs).effects)).toEqual([['healthy', us(1101)], ['open', us(2700)]]);
+  });
+
+  it('an EDGE stamped before the last frame is taken at the last frame\'s time (decoder time never runs backwards)', () => {
+    const inputs = [tick('N', 1000), edge('O', 900), tick('O', 1150), tick('O', 1250)];
+    expect(changes(classify(inputs).effects)).toEqual([['open', us(1200)]]);
+  });
+
+  it('a band input with a time that is not a number, or a band that is not O, N or H, changes nothing', () => {
+    const before = classify([edge('N', 0), ...pulsesAt([100, 600])]).state;
+    for (const input of [{ kind: 'band', band: 'H', atUs: Number.NaN }, { kind: 'sync', band: 'X', atUs: us(700) }] as unknown as LoopInput[]) {
+      const step = stepLoop(before, input, DEFAULT_LOOP_SETTINGS);
+      expect(step.effects).toEqual([]);
+      expect(step.state).toEqual(before);
+    }
+  });
+});
