@@ -108,7 +108,7 @@ export function stepLoop(
   const run: LoopRun = { s: copyLoopState(state), w: loopWindowsOf(settings), effects: [], qualityOwned: false };
   applyInput(run, input);
   // Array.prototype.sort is stable, so effects dated alike keep the order they happened in.
-  if (run.effects.length > 1) run.effects.sort((a, b) => a.atUs - b.atUs);
+  run.effects.sort((a, b) => a.atUs - b.atUs);
   return { state: run.s, effects: run.effects };
 }
 
@@ -537,6 +537,7 @@ function enterState(run: LoopRun, to: LoopState, atUs: number, reason: string): 
 /** When the intermittent flag may drop: a whole window spent healthy (no fault entry can fall inside it). */
 function intermittentClearsAtUs(run: LoopRun): number | null {
   const s = run.s;
+  // Stryker disable next-line ConditionalExpression: a healthy loop has a sinceUs (entering healthy sets it); the test is for the type
   if (!s.intermittent || s.state !== 'healthy' || s.sinceUs === null) return null;
   return s.sinceUs + run.w.intermittentWindowUs;
 }
@@ -547,7 +548,9 @@ function clearIntermittentBy(run: LoopRun, limitUs: number): void {
   if (clearsAt === null || clearsAt > limitUs) return;
   const s = run.s;
   s.intermittent = false;
+  // Stryker disable next-line ArithmeticOperator: the window start is healthy since, and every fault entry is before it (a fault ends healthy), so all go either way
   const windowStart = clearsAt - run.w.intermittentWindowUs;
+  // Stryker disable next-line ArrowFunction,EqualityOperator: as above, no entry is at or after the window start
   s.faultEntriesUs = s.faultEntriesUs.filter((t) => t >= windowStart);
   run.effects.push({ kind: 'intermittent', on: false, atUs: clearsAt, faultsInWindow: s.faultEntriesUs.length });
 }
