@@ -211,6 +211,7 @@ function applyInput(run: LoopRun, input: LoopInput): void {
       advanceLoop(run, atUs);
       return;
     }
+    // Stryker disable next-line ConditionalExpression,BlockStatement: unreachable, every input kind has its case (the never check)
     default: {
       const unexpected: never = input;
       void unexpected;
@@ -310,7 +311,9 @@ function advanceLoop(run: LoopRun, toUs: number): void {
  */
 function tripDeadlineUs(run: LoopRun): number | null {
   const { s, w } = run;
+  // Stryker disable next-line ConditionalExpression: every caller runs with a band known, and the first band input sets the trip window's start
   if (s.tripFromUs === null) return null;
+  // Stryker disable next-line ConditionalExpression: with no hidden pulse, max(0, null − start) is 0 all the same
   const hiddenExtraUs = s.hiddenPulseUs === null ? 0 : Math.min(Math.max(0, s.hiddenPulseUs - s.tripFromUs), w.hiddenPulseGraceUs);
   return s.tripFromUs + hiddenExtraUs + w.tripUs;
 }
@@ -377,7 +380,9 @@ function endHighSpan(run: LoopRun, endUs: number, next: Band, viaEdge: boolean):
   // A trip window that ran out during the span stands, dated when it ran out: invalid pulses do not
   // keep a loop alive. A deadline at the span's very end is left to advanceLoop, which fires it once
   // time is past it.
+  // Stryker disable next-line ConditionalExpression,StringLiteral: a tripped loop entering tripped again changes nothing, and the intermittent clear skipped then needs healthy
   const deadlineUs = s.state !== 'tripped' ? tripDeadlineUs(run) : null;
+  // Stryker disable next-line ConditionalExpression: the deadline is null only for a tripped loop (the trip window has a start once a band is known)
   if (deadlineUs !== null) {
     const tripAtUs = Math.max(deadlineUs, startUs);
     if (tripAtUs < endUs) {
@@ -426,6 +431,7 @@ function judgeHiddenHigh(run: LoopRun, startUs: number, endUs: number, viaEdge: 
 function endMissedSpan(run: LoopRun, atUs: number, viaEdge: boolean): void {
   const { s, w } = run;
   const band = s.band;
+  // Stryker disable next-line ConditionalExpression,LogicalOperator: called only for the band already tracked, so there is one, with its start
   if (band === null || s.bandSinceUs === null) return;
   const mayHaveBeenPulse = band === 'H' && s.nowUs !== null && s.nowUs - s.bandSinceUs <= w.pulseMaxUs;
   if (!viaEdge && !mayHaveBeenPulse) return;
@@ -456,6 +462,7 @@ function acceptPulse(run: LoopRun, startUs: number, endUs: number): void {
   const q = ownQuality(run);
   const intervalUs = s.previousPulseUs === null ? null : startUs - s.previousPulseUs;
   q.pulses += 1;
+  // Stryker disable next-line BooleanLiteral: with no interval the chain was broken (or never began), so the count is 0 and either way the pulse counts 1
   let inRhythm = false;
   if (intervalUs !== null) {
     const intervalMs = intervalUs / 1000;
@@ -470,6 +477,7 @@ function acceptPulse(run: LoopRun, startUs: number, endUs: number): void {
   s.lastPulseUs = startUs;
   s.tripFromUs = s.tripFromUs === null ? startUs : Math.max(s.tripFromUs, startUs);
   run.effects.push({ kind: 'pulse', atUs: startUs, widthUs: endUs - startUs, intervalUs });
+  // Stryker disable next-line ConditionalExpression,StringLiteral: entering healthy again changes nothing
   if (s.state !== 'healthy' && s.pulsesInRhythm >= w.healthyPulses) {
     enterState(run, 'healthy', endUs, stateReason.healthy(s.pulsesInRhythm));
   }
@@ -500,8 +508,10 @@ function acceptSignOfLife(run: LoopRun, earliestUs: number, latestUs: number): v
  */
 function noteHiddenPulse(run: LoopRun, fromUs: number, toUs: number): void {
   const s = run.s;
+  // Stryker disable next-line ConditionalExpression,StringLiteral: a tripped loop's hidden pulse is before its deadline, so once a pulse restarts the window it adds nothing
   if (s.state === 'tripped') return;
   const deadlineUs = tripDeadlineUs(run);
+  // Stryker disable next-line ConditionalExpression: called only with a band known, so the trip window has a start
   if (deadlineUs === null) return;
   const latestStartUs = Math.min(toUs, deadlineUs);
   // Only pulses after the deadline fit (the trip is certain), or no room at all.

@@ -349,3 +349,31 @@ describe('stepLoop: rules 3, 5 and 6 at their edges, and inputs that change noth
     }
   });
 });
+
+describe('stepLoop: what is not a valid pulse (README rule 2) and a TICK revealing a change (rule 3)', () => {
+  it('H spans that left O rather than N are no heartbeat, however well timed: glitches', () => {
+    const inputs = [edge('O', 0), ...[100, 600, 1100].flatMap((t) => [edge('H', t), edge('N', t + 1), edge('O', t + 2)])];
+    const { effects, state } = classify(inputs);
+    expect(pulseEffects(effects)).toEqual([]);
+    expect(changes(effects).some(([to]) => to === 'healthy')).toBe(false);
+    expect(takeQuality(state).quality).toMatchObject({ glitches: 3, longPulses: 0 });
+  });
+
+  it('an H span whose end only a TICK showed is no valid pulse (both ends must be EDGEs)', () => {
+    const inputs = [edge('N', 0), ...[100, 600, 1100, 1600].flatMap((t) => [edge('H', t), tick('N', t + 1)])];
+    const { effects } = classify(inputs);
+    expect(pulseEffects(effects)).toEqual([]);
+    expect(changes(effects).some(([to]) => to === 'healthy')).toBe(false);
+  });
+
+  it('a span not judged as a pulse is a glitch up to pulse_max (20 ms) and a long pulse beyond', () => {
+    const at = (widthMs: number) => takeQuality(classify([edge('O', 0), edge('H', 100), edge('N', 100 + widthMs)]).state).quality;
+    expect(at(20)).toMatchObject({ glitches: 1, longPulses: 0 });
+    expect(at(20.001)).toMatchObject({ glitches: 0, longPulses: 1 });
+  });
+
+  it('a TICK showing another band forgets the previous pulse: the next one has no interval', () => {
+    const inputs = [edge('N', 0), ...pulsesAt([100, 600]), tick('H', 1100.5), edge('N', 1101), ...pulsesAt([1600])];
+    expect(pulseEffects(classify(inputs).effects).map((p) => p.intervalUs)).toEqual([null, us(500), null]);
+  });
+});
