@@ -96,9 +96,9 @@ export function checkLine(state: ConformanceState, rawLine: string): Conformance
 
   const text = rawLine.endsWith('\r') ? rawLine.slice(0, -1) : rawLine;
   const star = text.lastIndexOf('*');
-  const body = star >= 0 ? text.slice(0, star) : text;
-  const given = star >= 0 ? text.slice(star + 1) : '';
-  if (!/^[0-9A-Fa-f]{4}$/.test(given)) return fail(s, 'crc', `${where}: does not end in *CCCC`);
+  const given = text.slice(star + 1);
+  if (star < 0 || !/^[0-9A-Fa-f]{4}$/.test(given)) return fail(s, 'crc', `${where}: does not end in *CCCC`);
+  const body = text.slice(0, star);
   const computed = crc16CcittFalse(body);
   if (parseInt(given, 16) !== computed) return fail(s, 'crc', `${where}: checksum ${given}, computed ${crcHex(computed)}`);
 

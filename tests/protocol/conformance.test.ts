@@ -159,12 +159,16 @@ describe('protocol v1 conformance: the report a decoder builder reads', () => {
       expect(detail(lines, 'bands').pass).toBe(true);
       expect(detail(lines, 'syntax').detail).toMatch(/is not a plain decimal number/);
     }
-    // Before any HELLO the loop count is not known: no band failure for a high loop number.
+    // Before any HELLO the loop count is not known: no band failure for a high loop number, and loop 0 is a range
+    // error of the frame itself (parseLine: loop 1..64), a syntax failure.
     expect(detail([refLine('EDGE 0 0 9 H')], 'bands').pass).toBe(true);
+    expect(detail([refLine('EDGE 0 0 0 H')], 'bands').pass).toBe(true);
+    expect(detail([refLine('EDGE 0 0 0 H')], 'syntax').detail).toMatch(/EDGE loop 0 is outside 1\.\.64/);
   });
 
   it('a TICK band letter that is not O, N or H is named with its loop; before HELLO any width is fine', () => {
     expect(detail([hello, refLine('TICK 0 0 NNXN')], 'bands').detail).toMatch(/: band "X" of loop 3 is not O, N or H$/);
+    expect(detail([hello, refLine('TICK 0 0 XNNN')], 'bands').detail).toMatch(/: band "X" of loop 1 is not O, N or H$/);
     expect(detail([refLine('TICK 0 0 NNNNNN'), refLine('TICK 1 100000 NN')], 'bands').pass).toBe(true);
   });
 
