@@ -114,6 +114,19 @@ describe('every loop of a decoder tripping at once', () => {
     ]);
   });
 
+  it('two of three held, and one of them cut inside the window: at its end the trips and then the open are told, in order', () => {
+    // As above, trips seen on the TICK at 4200 ms and held to 5200 ms; well pit's line is cut at 4300 ms: open at 4500 ms.
+    const index = site([['well-pit', 'main', 1], ['pump-house', 'main', 2], ['barn', 'main', 3]], [{ id: 'main', silenceMs: 2000 }]);
+    const lines = wireScript(3).hello(0).pulses(1, 100_000, 3_000_000).pulses(2, 100_000, 3_000_000).pulses(3, 100_000, 8_000_000)
+      .edge(4_300_000, 1, 'O').ticks(0, 6_000_000).build();
+    const { effects } = run(index, onTime(lines));
+    expect(told(effects).filter(([, , to]) => to !== 'healthy')).toEqual([
+      ['well-pit', 'healthy', 'tripped', 4100],
+      ['pump-house', 'healthy', 'tripped', 4100],
+      ['well-pit', 'tripped', 'open', 4500],
+    ]);
+  });
+
   it('held trips stand as they were when the decoder goes offline within the window', () => {
     const { state, effects } = run(twoLoops(), onTime(inStep(3_000_000, 4_200_000)));
     expect(told(effects).map(([, , to]) => to)).toEqual(['healthy', 'healthy']);
