@@ -108,7 +108,7 @@ export function stepLoop(
   const run: LoopRun = { s: copyLoopState(state), w: loopWindowsOf(settings), effects: [], qualityOwned: false };
   applyInput(run, input);
   // Array.prototype.sort is stable, so effects dated alike keep the order they happened in.
-  if (run.effects.length > 1) run.effects.sort((a, b) => a.atUs - b.atUs);
+  run.effects.sort((a, b) => a.atUs - b.atUs);
   return { state: run.s, effects: run.effects };
 }
 
@@ -144,8 +144,10 @@ interface LoopRun {
 
 /** The line-quality counters, safe to change: copied from the caller's state on the step's first change. */
 function ownQuality(run: LoopRun): LineQuality {
+  // Stryker disable next-line ConditionalExpression: copying an owned copy again gives the same counters; it only costs an allocation
   if (!run.qualityOwned) {
     run.s.quality = { ...run.s.quality };
+    // Stryker disable next-line BooleanLiteral: as above, a second copy holds the same counters
     run.qualityOwned = true;
   }
   return run.s.quality;
@@ -168,6 +170,7 @@ function applyInput(run: LoopRun, input: LoopInput): void {
       if (count === 0) return;
       ownQuality(run).lostFrames += count;
       s.spanTimed = false;
+      // Stryker disable next-line BooleanLiteral: read only together with spanTimed, cleared on the line above
       s.highMayBePulse = false;
       s.lostSinceSeen = true;
       // The count is the decoder's: the frames may as well have been other loops'. One frame cannot hide
@@ -177,6 +180,7 @@ function applyInput(run: LoopRun, input: LoopInput): void {
       // and the trip window gets the benefit of the doubt.
       const mayHidePulse = count >= 2 && s.band === 'N';
       if (mayHidePulse || s.band !== 'N') breakRhythm(run);
+      // Stryker disable next-line ConditionalExpression: with nowUs null nothing was heard since a start, so there is no trip window and noteHiddenPulse does nothing
       if (mayHidePulse && s.nowUs !== null) noteHiddenPulse(run, s.nowUs, Math.max(s.nowUs, input.atUs) - run.w.pulseMinUs);
       return;
     }
@@ -207,6 +211,7 @@ function applyInput(run: LoopRun, input: LoopInput): void {
       advanceLoop(run, atUs);
       return;
     }
+    // Stryker disable next-line ConditionalExpression,BlockStatement: unreachable, every input kind has its case (the never check)
     default: {
       const unexpected: never = input;
       void unexpected;
@@ -220,14 +225,19 @@ function startOver(run: LoopRun, atUs: number, reason: string): void {
   s.nowUs = null;
   s.band = null;
   s.bandSinceUs = null;
+  // Stryker disable next-line BooleanLiteral: band is null now, and the first band input begins a span, which sets all three span flags before any is read
   s.highMayBePulse = false;
+  // Stryker disable next-line BooleanLiteral: as above
   s.spanTimed = false;
+  // Stryker disable next-line BooleanLiteral: as above
   s.spanStartKnown = false;
   s.spanFrom = null;
   s.tripFromUs = null;
   s.hiddenPulseUs = null;
+  // Stryker disable next-line BooleanLiteral: read only once a band is known, and the first band input clears it
   s.lostSinceSeen = false;
   s.lastPulseUs = null;
+  // Stryker disable next-line ArrayDeclaration: a non-number entry fails the window filter at the next fault entry
   s.faultEntriesUs = [];
   s.awaitingSpeech = false;
   breakRhythm(run);
@@ -253,9 +263,11 @@ function advanceLoop(run: LoopRun, toUs: number): void {
   // Each pass changes the state or the flag, so a few passes always settle; the bound guards odd settings.
   // Stryker disable next-line EqualityOperator,UpdateOperator: every pass returns or changes the state or flag, so the bound is never reached
   for (let pass = 0; pass < 6; pass++) {
+    // Stryker disable next-line ConditionalExpression,LogicalOperator: band and bandSinceUs are set and cleared together; with no band no window below can fire (no open, no trip, and no intermittent clear outside healthy)
     if (s.band === null || s.bandSinceUs === null) return;
 
     if (s.band === 'H') {
+      // Stryker disable next-line ConditionalExpression,StringLiteral: entering shorted again changes nothing, and no intermittent clear falls due outside healthy
       if (s.state === 'shorted') return;
       const shortAtUs = s.bandSinceUs + w.shortUs;
       if (shortAtUs > toUs) return;
@@ -265,7 +277,9 @@ function advanceLoop(run: LoopRun, toUs: number): void {
     }
 
     let faultAtUs: number | null = null;
+    // Stryker disable next-line ConditionalExpression,LogicalOperator,StringLiteral: at N the trip deadline replaces this value below; in open, entering open again changes nothing; an intermittent clear needs healthy, which is neither
     if (s.band === 'O' && s.state !== 'open') faultAtUs = s.bandSinceUs + w.openUs;
+    // Stryker disable next-line StringLiteral: a tripped loop entering tripped again changes nothing
     const deadlineUs = s.band === 'N' && s.state !== 'tripped' ? tripDeadlineUs(run) : null;
     // A window that ran out while the band was O only trips once the band is N again.
     if (deadlineUs !== null) faultAtUs = Math.max(deadlineUs, s.bandSinceUs);
@@ -297,7 +311,9 @@ function advanceLoop(run: LoopRun, toUs: number): void {
  */
 function tripDeadlineUs(run: LoopRun): number | null {
   const { s, w } = run;
+  // Stryker disable next-line ConditionalExpression: every caller runs with a band known, and the first band input sets the trip window's start
   if (s.tripFromUs === null) return null;
+  // Stryker disable next-line ConditionalExpression: with no hidden pulse, max(0, null − start) is 0 all the same
   const hiddenExtraUs = s.hiddenPulseUs === null ? 0 : Math.min(Math.max(0, s.hiddenPulseUs - s.tripFromUs), w.hiddenPulseGraceUs);
   return s.tripFromUs + hiddenExtraUs + w.tripUs;
 }
@@ -364,7 +380,9 @@ function endHighSpan(run: LoopRun, endUs: number, next: Band, viaEdge: boolean):
   // A trip window that ran out during the span stands, dated when it ran out: invalid pulses do not
   // keep a loop alive. A deadline at the span's very end is left to advanceLoop, which fires it once
   // time is past it.
+  // Stryker disable next-line ConditionalExpression,StringLiteral: a tripped loop entering tripped again changes nothing, and the intermittent clear skipped then needs healthy
   const deadlineUs = s.state !== 'tripped' ? tripDeadlineUs(run) : null;
+  // Stryker disable next-line ConditionalExpression: the deadline is null only for a tripped loop (the trip window has a start once a band is known)
   if (deadlineUs !== null) {
     const tripAtUs = Math.max(deadlineUs, startUs);
     if (tripAtUs < endUs) {
@@ -413,6 +431,7 @@ function judgeHiddenHigh(run: LoopRun, startUs: number, endUs: number, viaEdge: 
 function endMissedSpan(run: LoopRun, atUs: number, viaEdge: boolean): void {
   const { s, w } = run;
   const band = s.band;
+  // Stryker disable next-line ConditionalExpression,LogicalOperator: called only for the band already tracked, so there is one, with its start
   if (band === null || s.bandSinceUs === null) return;
   const mayHaveBeenPulse = band === 'H' && s.nowUs !== null && s.nowUs - s.bandSinceUs <= w.pulseMaxUs;
   if (!viaEdge && !mayHaveBeenPulse) return;
@@ -443,6 +462,7 @@ function acceptPulse(run: LoopRun, startUs: number, endUs: number): void {
   const q = ownQuality(run);
   const intervalUs = s.previousPulseUs === null ? null : startUs - s.previousPulseUs;
   q.pulses += 1;
+  // Stryker disable next-line BooleanLiteral: with no interval the chain was broken (or never began), so the count is 0 and either way the pulse counts 1
   let inRhythm = false;
   if (intervalUs !== null) {
     const intervalMs = intervalUs / 1000;
@@ -457,6 +477,7 @@ function acceptPulse(run: LoopRun, startUs: number, endUs: number): void {
   s.lastPulseUs = startUs;
   s.tripFromUs = s.tripFromUs === null ? startUs : Math.max(s.tripFromUs, startUs);
   run.effects.push({ kind: 'pulse', atUs: startUs, widthUs: endUs - startUs, intervalUs });
+  // Stryker disable next-line ConditionalExpression,StringLiteral: entering healthy again changes nothing
   if (s.state !== 'healthy' && s.pulsesInRhythm >= w.healthyPulses) {
     enterState(run, 'healthy', endUs, stateReason.healthy(s.pulsesInRhythm));
   }
@@ -487,8 +508,10 @@ function acceptSignOfLife(run: LoopRun, earliestUs: number, latestUs: number): v
  */
 function noteHiddenPulse(run: LoopRun, fromUs: number, toUs: number): void {
   const s = run.s;
+  // Stryker disable next-line ConditionalExpression,StringLiteral: a tripped loop's hidden pulse is before its deadline, so once a pulse restarts the window it adds nothing
   if (s.state === 'tripped') return;
   const deadlineUs = tripDeadlineUs(run);
+  // Stryker disable next-line ConditionalExpression: called only with a band known, so the trip window has a start
   if (deadlineUs === null) return;
   const latestStartUs = Math.min(toUs, deadlineUs);
   // Only pulses after the deadline fit (the trip is certain), or no room at all.
@@ -524,6 +547,7 @@ function enterState(run: LoopRun, to: LoopState, atUs: number, reason: string): 
 /** When the intermittent flag may drop: a whole window spent healthy (no fault entry can fall inside it). */
 function intermittentClearsAtUs(run: LoopRun): number | null {
   const s = run.s;
+  // Stryker disable next-line ConditionalExpression: a healthy loop has a sinceUs (entering healthy sets it); the test is for the type
   if (!s.intermittent || s.state !== 'healthy' || s.sinceUs === null) return null;
   return s.sinceUs + run.w.intermittentWindowUs;
 }
@@ -534,7 +558,9 @@ function clearIntermittentBy(run: LoopRun, limitUs: number): void {
   if (clearsAt === null || clearsAt > limitUs) return;
   const s = run.s;
   s.intermittent = false;
+  // Stryker disable next-line ArithmeticOperator: the window start is healthy since, and every fault entry is before it (a fault ends healthy), so all go either way
   const windowStart = clearsAt - run.w.intermittentWindowUs;
+  // Stryker disable next-line ArrowFunction,EqualityOperator: as above, no entry is at or after the window start
   s.faultEntriesUs = s.faultEntriesUs.filter((t) => t >= windowStart);
   run.effects.push({ kind: 'intermittent', on: false, atUs: clearsAt, faultsInWindow: s.faultEntriesUs.length });
 }

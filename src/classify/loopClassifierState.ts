@@ -218,6 +218,7 @@ export interface LoopWindows {
  */
 export function loopWindowsOf(settings: LoopSettings): LoopWindows {
   let w = windowsCache.get(settings);
+  // Stryker disable next-line ConditionalExpression: working the windows out again gives the same windows; the cache only saves the work
   if (w === undefined) {
     w = toWindows(settings);
     windowsCache.set(settings, w);

@@ -172,7 +172,8 @@ function acceptFrame(session: PrivateSession, frame: Frame): DecoderEvent[] {
 
   const events: DecoderEvent[] = [];
   let restarted = advanceClock(session, frame.time);
-  if (!restarted && session.expectedSeq !== null && seqBehind > 1 && seqBehind <= SEQ_MODULO / 2) {
+  // seqBehind is 0 with no expectation yet, and 1 (a duplicate) has returned above.
+  if (!restarted && seqBehind >= 2 && seqBehind <= SEQ_MODULO / 2) {
     // The seq went back (further than a duplicate) while the clock did not: a restart all the same.
     session.expectedSeq = null;
     counters.silentRestarts += 1;
@@ -214,9 +215,14 @@ function misfitForHello(session: DecoderSession, frame: Exclude<Frame, { type: '
   const loops = session.hello?.loops ?? session.configuredLoops;
   if (loops === null) return null;
   const source = session.hello ? 'the decoder announced' : 'the config gives this decoder (no HELLO yet)';
-  if (frame.type === 'EDGE' && frame.loop > loops) return `EDGE loop ${frame.loop} is past the ${loops} loops ${source}`;
-  if (frame.type === 'TICK' && frame.bands.length !== loops) return `TICK has ${frame.bands.length} bands but ${source} ${loops} loops`;
-  return null;
+  switch (frame.type) {
+    case 'EDGE':
+      return frame.loop > loops ? `EDGE loop ${frame.loop} is past the ${loops} loops ${source}` : null;
+    case 'TICK':
+      return frame.bands.length !== loops ? `TICK has ${frame.bands.length} bands but ${source} ${loops} loops` : null;
+    default:
+      return null;
+  }
 }
 
 /**
@@ -233,9 +239,11 @@ export function rebaseDecoderClock(session: DecoderSession, decoderUs: number): 
  * went back further than a late frame: a restart whose HELLO was lost.
  */
 function advanceClock(session: PrivateSession, raw: number): boolean {
+  // Stryker disable next-line ConditionalExpression: the two are set together here and only a HELLO clears one (lastRawTime); the second test is for the type
   if (session.lastRawTime === null || session.lastDecoderUs === null) {
     const start = session.baseUs + raw;
     // Never behind what we already handed out (a HELLO re-bases on lastDecoderUs, so this holds).
+    // Stryker disable next-line LogicalOperator: `null && start` is null, and Math.max(start, null) is the non-negative start all the same
     session.lastDecoderUs = Math.max(start, session.lastDecoderUs ?? start);
     session.lastRawTime = raw;
     return false;
@@ -257,6 +265,7 @@ function advanceClock(session: PrivateSession, raw: number): boolean {
   // time seen. Adding the new raw time as if it had elapsed would date the loops' next events up to
   // that far in the future and trip every one of them; how long the decoder was down is unknown.
   session.expectedSeq = null;
+  // Stryker disable next-line ArithmeticOperator: kept consistent, never read: lastRawTime is set here, so the next read of baseUs follows a HELLO, which sets it afresh
   session.baseUs = session.lastDecoderUs - raw;
   session.lastRawTime = raw;
   session.counters.silentRestarts += 1;

@@ -38,11 +38,13 @@ export function splitChunk(state: SplitterState, chunk: string): SplitResult {
   let partial = state.partial;
   let discarding = state.discarding;
   let start = 0;
+  // Stryker disable next-line EqualityOperator: a pass at start === chunk.length only appends an empty piece to the partial that was just emptied
   while (start <= chunk.length) {
     const lf = chunk.indexOf('\n', start);
     const end = lf === -1 ? chunk.length : lf;
     if (!discarding) {
       // Only the piece up to the limit (+1 to know it is over) is ever kept.
+      // Stryker disable next-line ArithmeticOperator: a larger piece is dropped at once all the same (it is over the limit); only the size of that transient string differs
       const room = MAX_LINE_BYTES + 1 - partial.length;
       partial += chunk.slice(start, Math.min(end, start + room));
       if (partial.length > MAX_LINE_BYTES) {

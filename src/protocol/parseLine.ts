@@ -20,7 +20,8 @@ export function parseLine(line: string): ParseOutcome {
 
   const text = line.endsWith('\r') ? line.slice(0, -1) : line;
   const star = text.length - 5;
-  if (star < 0 || text.charCodeAt(star) !== 0x2a /* * */) {
+  // A line under 5 characters fails this too: charCodeAt before the start is NaN.
+  if (text.charCodeAt(star) !== 0x2a /* * */) {
     return drop('syntax', 'line does not end in *CCCC (a "*" and 4 hex digits of checksum)');
   }
   const crcText = text.slice(star + 1);
@@ -156,7 +157,8 @@ export function utf8Length(text: string): number {
     const code = text.charCodeAt(i);
     if (code < 0x80) bytes += 1;
     else if (code < 0x800) bytes += 2;
-    else if (code >= 0xd800 && code <= 0xdbff && i + 1 < text.length && (text.charCodeAt(i + 1) & 0xfc00) === 0xdc00) {
+    // A high surrogate last in the text reads NaN after it, which is no low surrogate: 3 bytes, as Buffer.byteLength counts it.
+    else if (code >= 0xd800 && code <= 0xdbff && (text.charCodeAt(i + 1) & 0xfc00) === 0xdc00) {
       bytes += 4;
       i++;
     } else bytes += 3;

@@ -135,4 +135,13 @@ describe('alarm lifecycle: refused and ignored events (ours)', () => {
     const shelved = { ...start.shelvedActive, shelvedUntil: now + 1 };
     expect(applyAlarmEvent(shelved, ev.expiry, now)).toEqual({ ok: true, changed: false });
   });
+
+  it('never expires a shelf that has no end time; only an operator can unshelve it (ours)', () => {
+    // A record written without an end time (the type allows it) has no moment at which the shelf is over,
+    // so the clock must not bring it back into view on its own.
+    const openEnded = { ...start.shelvedActive, shelvedUntil: null };
+    expect(applyAlarmEvent(openEnded, ev.expiry, now + 365 * 24 * 60 * MIN)).toEqual({ ok: true, changed: false });
+    const unshelved = applyAlarmEvent(openEnded, ev.unshelve, now);
+    expect(unshelved.ok && unshelved.changed && unshelved.alarm.state).toBe('unacknowledged');
+  });
 });

@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { DEFAULT_LOOP_SETTINGS } from '../../src/classify/loopClassifierState.js';
-import { changes, classify, edge, tick, us } from './loopScript.js';
+import { stepLoop } from '../../src/classify/loopClassifier.js';
+import { changes, classify, edge, pulsesAt, tick, us } from './loopScript.js';
 
 /**
  * README: "A loop that enters a fault state 3 times within 10 minutes is flagged intermittent". The
@@ -25,5 +26,22 @@ describe('intermittent: the window boundary', () => {
     const { effects } = classify(script, { ...DEFAULT_LOOP_SETTINGS, intermittentWindowMs: 2899.999 });
     expect(changes(effects).map(([to]) => to)).toEqual(['open', 'tripped', 'open']);
     expect(effects.filter((e) => e.kind === 'intermittent')).toEqual([]);
+  });
+});
+
+/** README rule 9: the flag drops at healthy since + intermittent_window; effects come out in time order (stepLoop). */
+describe('intermittent: the flag dropping during a pulse', () => {
+  it('drops at healthy since + window, told after the pulse in flight that started before it', () => {
+    // Entries: open 300 ms, tripped 2500 ms, open 3200 ms: flagged at 3200 ms (window 5 s). Back at N at
+    // 4000 ms, pulses from 4100 ms: healthy at 5101 ms, so the flag drops at 10 101 ms, the very end of
+    // the pulse 10 100–10 101 ms.
+    const settings = { ...DEFAULT_LOOP_SETTINGS, intermittentWindowMs: 5000 };
+    const starts = Array.from({ length: 13 }, (_, i) => 4100 + 500 * i);
+    const upToLast = [edge('N', 0), edge('O', 100), edge('N', 1000), edge('O', 3000), edge('N', 4000), ...pulsesAt(starts)];
+    const before = classify(upToLast.slice(0, -1), settings);
+    expect(changes(before.effects).at(-1)).toEqual(['healthy', us(5101)]);
+    const last = stepLoop(before.state, upToLast.at(-1)!, settings);
+    expect(last.effects.map((e) => [e.kind, e.atUs])).toEqual([['pulse', us(10100)], ['intermittent', us(10101)]]);
+    expect(last.effects[1]).toMatchObject({ on: false });
   });
 });

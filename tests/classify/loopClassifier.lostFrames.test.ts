@@ -4,7 +4,7 @@ import type { Band } from '../../src/model/band.js';
 import { DEFAULT_LOOP_SETTINGS, initialLoopClassifier, lastPulseUs } from '../../src/classify/loopClassifierState.js';
 import { stepLoop, type LoopEffect, type LoopInput } from '../../src/classify/loopClassifier.js';
 import { takeQuality } from '../../src/classify/lineQuality.js';
-import { changes, classify, edge, heartbeat, lost, pulseAt, pulseEffects, seededRandom, tick, us, withTicks } from './loopScript.js';
+import { changes, classify, edge, heartbeat, lost, pulseAt, pulseEffects, pulsesAt, seededRandom, tick, us, withTicks } from './loopScript.js';
 
 /*
  * The trip boundary and what lost frames may hide. Expected times are worked by hand from the defaults
@@ -260,5 +260,38 @@ describe('a live node on a lossy line', () => {
       ),
       { numRuns: 300, seed: 20_260_121 },
     );
+  });
+});
+
+/* Lost frames at H and at N, at the points the 13:15 mutation run found untested (README rules 4, 6, 10). */
+describe('lost frames: an H span seen again after a gap, and gaps with no room for a pulse', () => {
+  const healthyThen = (...rest: LoopInput[]) => [edge('N', 0), edge('H', 100), edge('N', 101), edge('H', 600), edge('N', 601), ...rest];
+
+  it('H seen only for a pulse\'s width, then a gap, then H again: a new span from that TICK (shorted 200 ms later)', () => {
+    const { effects } = classify(healthyThen(edge('H', 1100), lost(3, 1100.5), tick('H', 1200), tick('H', 1300), tick('H', 1400)));
+    expect(changes(effects).filter(([to]) => to === 'shorted')).toEqual([['shorted', us(1400)]]);
+  });
+
+  it('H seen for exactly 20 ms (pulse_max) is still a pulse\'s width: the same', () => {
+    const { effects } = classify(healthyThen(edge('H', 1100), tick('H', 1120), lost(3, 1120.5), tick('H', 1200), tick('H', 1300), tick('H', 1400)));
+    expect(changes(effects).filter(([to]) => to === 'shorted')).toEqual([['shorted', us(1400)]]);
+  });
+
+  it('H seen for longer than any pulse goes on through the gap: shorted at its start + 200 ms (rule 4)', () => {
+    const { effects } = classify(healthyThen(edge('H', 1100), tick('H', 1150), lost(3, 1150.5), tick('H', 1250), tick('H', 1350)));
+    expect(changes(effects).filter(([to]) => to === 'shorted')).toEqual([['shorted', us(1300)]]);
+  });
+
+  // Healthy at 1101 ms, last pulse at 1100 ms: the trip is due at 2600 ms (rule 6).
+  const healthy = [edge('N', 0), ...pulsesAt([100, 600, 1100]), tick('N', 2000)];
+
+  it('one frame lost at N and an EDGE into N 0.1 ms after the last frame: too short to hold a pulse, the trip stays due', () => {
+    const { effects } = classify([...healthy, lost(1, 2000.1), edge('N', 2000.1), ...ticksN(2250, 3500)]);
+    expect(changes(effects)).toEqual([['healthy', us(1101)], ['tripped', us(2600)]]);
+  });
+
+  it('two frames lost with the frame after the gap under pulse_min after the last: no hidden pulse fits (rule 10)', () => {
+    const { effects } = classify([...healthy, lost(2, 2000.1), ...ticksN(2250, 3500)]);
+    expect(changes(effects)).toEqual([['healthy', us(1101)], ['tripped', us(2600)]]);
   });
 });

@@ -306,3 +306,74 @@ describe('stepLoop: purity', () => {
     expect(snapshot).toEqual(structuredClone(midPulse));
   });
 });
+
+/*
+ * README "Classification rules, exactly", at the points the 13:15 mutation run found untested. Each
+ * expected time is worked out by hand from the default settings, as above.
+ */
+describe('stepLoop: rules 3, 5 and 6 at their edges, and inputs that change nothing', () => {
+  it('a loss of no frames hides nothing: the pulse around it still counts (rule 10 needs a gap)', () => {
+    const inputs = [edge('N', 0), edge('H', 100), lost(0, 100.5), edge('N', 101), ...pulsesAt([600, 1100])];
+    expect(changes(classify(inputs).effects)).toEqual([['healthy', us(1101)]]);
+  });
+
+  it('two frames lost at N forget the previous pulse (rule 3): the next pulse has no interval and counts from 1', () => {
+    const inputs = [edge('N', 0), ...pulsesAt([100, 600]), lost(2, 900), ...pulsesAt([1100, 1600, 2100])];
+    const { effects } = classify(inputs);
+    expect(pulseEffects(effects).map((p) => p.intervalUs)).toEqual([null, us(500), null, us(500), us(500)]);
+    expect(changes(effects)).toEqual([['healthy', us(2101)]]);
+  });
+
+  it('one frame lost during an H span breaks the chain too: the span cannot be judged, nor the interval across it', () => {
+    const inputs = [edge('N', 0), ...pulsesAt([100, 600]), edge('H', 1100), lost(1, 1100.5), edge('N', 1101), ...pulsesAt([1600])];
+    expect(pulseEffects(classify(inputs).effects).map((p) => [p.atUs, p.intervalUs])).toEqual([[us(100), null], [us(600), us(500)], [us(1600), null]]);
+  });
+
+  it('an O span is open at its start + 200 ms even when the trip deadline falls inside it (rules 5 and 6)', () => {
+    // Healthy at 1101 ms; last pulse 1100 ms, so the trip deadline is 2600 ms, 100 ms into the O span from 2500 ms.
+    const inputs = [edge('N', 0), ...pulsesAt([100, 600, 1100]), edge('O', 2500), tick('O', 2750), tick('O', 3000)];
+    expect(changes(classify(inputs).effects)).toEqual([['healthy', us(1101)], ['open', us(2700)]]);
+  });
+
+  it('an EDGE stamped before the last frame is taken at the last frame\'s time (decoder time never runs backwards)', () => {
+    const inputs = [tick('N', 1000), edge('O', 900), tick('O', 1150), tick('O', 1250)];
+    expect(changes(classify(inputs).effects)).toEqual([['open', us(1200)]]);
+  });
+
+  it('a band input with a time that is not a number, or a band that is not O, N or H, changes nothing', () => {
+    const before = classify([edge('N', 0), ...pulsesAt([100, 600])]).state;
+    for (const input of [{ kind: 'band', band: 'H', atUs: Number.NaN }, { kind: 'sync', band: 'X', atUs: us(700) }] as unknown as LoopInput[]) {
+      const step = stepLoop(before, input, DEFAULT_LOOP_SETTINGS);
+      expect(step.effects).toEqual([]);
+      expect(step.state).toEqual(before);
+    }
+  });
+});
+
+describe('stepLoop: what is not a valid pulse (README rule 2) and a TICK revealing a change (rule 3)', () => {
+  it('H spans that left O rather than N are no heartbeat, however well timed: glitches', () => {
+    const inputs = [edge('O', 0), ...[100, 600, 1100].flatMap((t) => [edge('H', t), edge('N', t + 1), edge('O', t + 2)])];
+    const { effects, state } = classify(inputs);
+    expect(pulseEffects(effects)).toEqual([]);
+    expect(changes(effects).some(([to]) => to === 'healthy')).toBe(false);
+    expect(takeQuality(state).quality).toMatchObject({ glitches: 3, longPulses: 0 });
+  });
+
+  it('an H span whose end only a TICK showed is no valid pulse (both ends must be EDGEs)', () => {
+    const inputs = [edge('N', 0), ...[100, 600, 1100, 1600].flatMap((t) => [edge('H', t), tick('N', t + 1)])];
+    const { effects } = classify(inputs);
+    expect(pulseEffects(effects)).toEqual([]);
+    expect(changes(effects).some(([to]) => to === 'healthy')).toBe(false);
+  });
+
+  it('a span not judged as a pulse is a glitch up to pulse_max (20 ms) and a long pulse beyond', () => {
+    const at = (widthMs: number) => takeQuality(classify([edge('O', 0), edge('H', 100), edge('N', 100 + widthMs)]).state).quality;
+    expect(at(20)).toMatchObject({ glitches: 1, longPulses: 0 });
+    expect(at(20.001)).toMatchObject({ glitches: 0, longPulses: 1 });
+  });
+
+  it('a TICK showing another band forgets the previous pulse: the next one has no interval', () => {
+    const inputs = [edge('N', 0), ...pulsesAt([100, 600]), tick('H', 1100.5), edge('N', 1101), ...pulsesAt([1600])];
+    expect(pulseEffects(classify(inputs).effects).map((p) => p.intervalUs)).toEqual([null, us(500), null]);
+  });
+});

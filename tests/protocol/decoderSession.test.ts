@@ -1,7 +1,7 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import type { DecoderEvent } from '../../src/protocol/decoderEvent.js';
-import { initialDecoderSession, recordOverlong, sessionCounters, stepDecoderSession, type DecoderSession } from '../../src/protocol/decoderSession.js';
+import { initialDecoderSession, rebaseDecoderClock, recordOverlong, sessionCounters, stepDecoderSession, type DecoderSession } from '../../src/protocol/decoderSession.js';
 import { DROP_REASONS } from '../../src/protocol/frame.js';
 import { OVERLONG_LINE } from '../../src/protocol/lineSplitter.js';
 import { MALFORMED } from './malformedLines.js';
@@ -269,5 +269,84 @@ describe('decoder session: pure at its boundary', () => {
         expect(session).toEqual(before);
       }),
     );
+  });
+});
+
+/** The README's "Faults in the stream" table and rule 0, at the exact bounds it states. */
+describe('decoder session: the stream-fault rules at their bounds (README)', () => {
+  const restarts = (bodies: string[]) => run(bodies).events.filter((e) => e.kind === 'fault' && e.code === 'RESTART').length;
+
+  it('time exactly 1 s back is a frame sent late; 1 s and 1 µs back is a restart whose HELLO was lost', () => {
+    const late = run(['TICK 0 5000000 N', 'TICK 1 4000000 N']);
+    expect(times(late.events)).toEqual([5000000, 5000000]);
+    expect(sessionCounters(late.session)).toMatchObject({ lateFrames: 1, silentRestarts: 0 });
+    expect(restarts(['TICK 0 5000000 N', 'TICK 1 3999999 N'])).toBe(1);
+  });
+
+  it('a step of 2^31 − 1 µs is forward (rule 0: less than 2^31); a step of exactly 2^31 is not, so the clock went back', () => {
+    expect(times(run(['TICK 0 0 N', `TICK 1 ${2 ** 31 - 1} N`]).events)).toEqual([0, 2 ** 31 - 1]);
+    expect(restarts(['TICK 0 0 N', `TICK 1 ${2 ** 31} N`])).toBe(1);
+  });
+
+  it('a seq 32 768 behind is a restart (the table: 2 to 32 768 back); 32 769 behind is 32 767 frames lost', () => {
+    // After TICK 40000 the next seq is 40001: 40001 − 7233 = 32 768 back, 40001 − 7232 = 32 769 back.
+    const back = run(['TICK 40000 100 N', 'TICK 7233 200 N']);
+    expect(back.events.map((e) => e.kind)).toEqual(['tick', 'fault', 'tick']);
+    expect(sessionCounters(back.session)).toMatchObject({ silentRestarts: 1, lost: 0 });
+    const ahead = run(['TICK 40000 100 N', 'TICK 7232 200 N']);
+    expect(ahead.events[1]).toEqual({ kind: 'lost', count: 32767, decoderUs: 200 });
+    expect(sessionCounters(ahead.session).silentRestarts).toBe(0);
+    // The near end of the table's range: 2 back (after 10 and 11, a 10 again) is a restart, 1 back a duplicate.
+    expect(restarts(['TICK 10 100 N', 'TICK 11 200 N', 'TICK 10 300 N'])).toBe(1);
+  });
+
+  it('the clock and the seq both going back is one restart, reported once', () => {
+    const { events, session } = run(['TICK 500 90000000 N', 'TICK 3 100 N']);
+    expect(events.filter((e) => e.kind === 'fault')).toHaveLength(1);
+    expect(sessionCounters(session).silentRestarts).toBe(1);
+  });
+
+  it('the first frame heard is never a duplicate, whatever its seq (joined mid-stream)', () => {
+    const { events, session } = run(['TICK 65535 100 N']);
+    expect(events.map((e) => e.kind)).toEqual(['tick']);
+    expect(sessionCounters(session).duplicates).toBe(0);
+  });
+
+  it('the stored counters name the firmware and loops of the last HELLO, and count every HELLO', () => {
+    const before = sessionCounters(run(['TICK 0 100 N']).session);
+    expect(before.firmware).toBeNull();
+    expect(before.loops).toBeNull();
+    const after = sessionCounters(run(['HELLO 1 4 fw-1', 'TICK 0 100 NNNN', 'HELLO 1 2 fw-2']).session);
+    expect(after).toMatchObject({ firmware: 'fw-2', loops: 2, hellos: 2 });
+  });
+
+  it('each over-long line the splitter discarded is one drop event, saying the limit', () => {
+    const { events } = recordOverlong(initialDecoderSession(), 2);
+    expect(events).toEqual([
+      { kind: 'dropped', reason: 'too-long', detail: 'line longer than 120 bytes discarded' },
+      { kind: 'dropped', reason: 'too-long', detail: 'line longer than 120 bytes discarded' },
+    ]);
+    expect(recordOverlong(initialDecoderSession(), 0).events).toEqual([]);
+  });
+
+  it('a misfit says what it did not fit: the HELLO, or the config before any HELLO', () => {
+    const detailOf = (session: DecoderSession, body: string) => {
+      const e = stepDecoderSession(session, refLine(body)).events[0]!;
+      return e.kind === 'dropped' ? e.detail : null;
+    };
+    const configured = initialDecoderSession(8);
+    expect(detailOf(configured, 'EDGE 0 100 9 H')).toBe('EDGE loop 9 is past the 8 loops the config gives this decoder (no HELLO yet)');
+    const helloed = stepDecoderSession(configured, refLine('HELLO 1 4 fw')).session;
+    expect(detailOf(helloed, 'TICK 0 100 NNN')).toBe('TICK has 3 bands but the decoder announced 4 loops');
+    expect(detailOf(helloed, 'EDGE 0 100 4 H')).toBeNull();
+  });
+
+  it('rebasing the clock: a session that has heard no time is left as it is; after a HELLO, frames count on from the new time', () => {
+    const fresh = initialDecoderSession(4);
+    expect(rebaseDecoderClock(fresh, 2_000_000)).toEqual(fresh);
+    let session = run(['TICK 0 5000000 N', 'HELLO 1 1 fw']).session;
+    session = rebaseDecoderClock(session, 2_000_000);
+    const next = stepDecoderSession(session, refLine('TICK 0 100 N'));
+    expect(times(next.events)).toEqual([2_000_100]);
   });
 });

@@ -37,6 +37,11 @@ describe('drop details name the frame, the field and the value', () => {
     ['FAULT 1 2 HOT', 'range', /^FAULT code "HOT" is not one of OVERRUN, SUPPLY, RESTART$/],
     ['FAULT 1 2 Hot', 'syntax', /^FAULT code "Hot" must be upper-case letters$/],
     ['HELLO 2 8 fw', 'range', /^HELLO version 2 is not supported/],
+    ['HELLO 01 8 fw', 'syntax', /^HELLO version "01" is not a plain decimal number$/],
+    // 15 digits is still a number read exactly, so it is judged as a version, not as out of range.
+    ['HELLO 100000000000000 8 fw', 'range', /^HELLO version 100000000000000 is not supported/],
+    // 16 digits are out of range unread, even below Number.MAX_SAFE_INTEGER: the detail shows the first 12.
+    ['HELLO 1000000000000000 8 fw', 'range', /^HELLO version 100000000000… is outside 0\.\.9007199254740991$/],
     ['HELLO 1 65 fw', 'range', /^HELLO loops 65 is outside 1\.\.64$/],
     ['HELLO 1 8 fw/1', 'syntax', /^HELLO firmware "fw\/1" may only use A-Z a-z 0-9 \. _ -$/],
     ['HELLO 1 8 abcdefghijklmnopqrstuvwxy', 'range', /^HELLO firmware is 25 characters; the limit is 24$/],
@@ -58,6 +63,12 @@ describe('drop details name the frame, the field and the value', () => {
     expect(detailOf(refLine('EDGE 1 2  3 H')).detail).toBe('fields must be separated by exactly one space');
     expect(detailOf(refLine('EDGE 1 2 3 HHHHHHHHHHHHHHHHHHHH')).detail).toBe('EDGE band "HHHHHHHHHHHHHHHH" is not one band letter');
     expect(detailOf(refLine(`TICK 1 2 ${'N'.repeat(65)}`)).detail).toBe('TICK has 65 bands; the limit is 64');
+    const junk = 'abcdefghijklmnopqrstuvwxyz0123456789';
+    expect(detailOf(refLine(`EDGE ${junk} 2 3 H`)).detail).toBe('EDGE seq "abcdefghijklmnop" is not a plain decimal number');
+    expect(detailOf(refLine(`TICK 1 2 ${junk}`)).detail).toBe('TICK bands "abcdefghijklmnop" must be band letters only');
+    expect(detailOf(refLine(`FAULT 1 2 ${junk}`)).detail).toBe('FAULT code "abcdefghijklmnop" must be upper-case letters');
+    expect(detailOf(refLine(`FAULT 1 2 ${junk.slice(0, 26).toUpperCase()}`)).detail).toBe('FAULT code "ABCDEFGHIJKLMNOP" is not one of OVERRUN, SUPPLY, RESTART');
+    expect(detailOf(refLine(`HELLO 1 8 ${junk}/${junk}`)).detail).toBe('HELLO firmware "abcdefghijklmnopqrstuvwxyz0123" may only use A-Z a-z 0-9 . _ -');
     expect(detailOf('*1234').reason).toBe('crc');
     expect(detailOf('1234').detail).toMatch(/does not end in \*CCCC/);
   });
@@ -66,11 +77,16 @@ describe('drop details name the frame, the field and the value', () => {
 describe('line length in UTF-8 bytes (README: a whole line is at most 120 bytes)', () => {
   it('counts like Node\'s own UTF-8 encoder (Buffer.byteLength), lone surrogates included', () => {
     fc.assert(
-      fc.property(fc.string({ unit: fc.oneof(fc.constant('a'), fc.constant('é'), fc.constant('€'), fc.constant('😀'), fc.constant('\ud800'), fc.constant('\udc00'), fc.constant('\u07ff'), fc.constant('\u0800')), maxLength: 40 }), (text) => {
+      fc.property(fc.string({ unit: fc.oneof(fc.constant('a'), fc.constant('é'), fc.constant('€'), fc.constant('😀'), fc.constant('\ud800'), fc.constant('\udc00'), fc.constant('\u07ff'), fc.constant('\u0800'), fc.constant('\u0080'), fc.constant('\u007f'), fc.constant('\udbff'), fc.constant('\udfff')), maxLength: 40 }), (text) => {
         expect(utf8Length(text)).toBe(Buffer.byteLength(text, 'utf8'));
       }),
       { numRuns: 2000 },
     );
+    // The boundaries one by one (UTF-8, RFC 3629 section 3): U+007F one byte, U+0080 two, U+10FFFF four.
+    expect(utf8Length('\u007f')).toBe(1);
+    expect(utf8Length('\u0080')).toBe(2);
+    expect(utf8Length('\udbff\udfff')).toBe(4);
+    expect(utf8Length('a\ud800')).toBe(Buffer.byteLength('a\ud800'));
   });
 
   it('120 bytes pass the length check and 121 are too long, however the bytes are made up', () => {

@@ -77,4 +77,20 @@ describe('flushSplitter', () => {
     expect(flushSplitter(feed(['x'.repeat(500)]).state)).toMatchObject({ lines: [], overlong: 1 });
     expect(flushSplitter(initialSplitter())).toMatchObject({ lines: [], overlong: 0 });
   });
+
+  it('says where the lost line stood: before anything else it hands back', () => {
+    expect(flushSplitter(feed(['x'.repeat(500)]).state).overlongBefore).toEqual([0]);
+    expect(flushSplitter(feed(['EDGE 1 2']).state).overlongBefore).toEqual([]);
+  });
+});
+
+describe('an over-long line is never buffered (lineSplitter.ts: "discarded up to its LF")', () => {
+  it('keeps nothing of it while it lasts, across chunks, and starts afresh after its LF', () => {
+    let r = splitChunk(initialSplitter(), 'x'.repeat(200));
+    expect(r.state).toEqual({ partial: '', discarding: true });
+    r = splitChunk(r.state, 'yyy');
+    expect(r.state).toEqual({ partial: '', discarding: true });
+    r = splitChunk(r.state, 'zz\nEDGE');
+    expect(r).toMatchObject({ lines: [], overlong: 1, overlongBefore: [0], state: { partial: 'EDGE', discarding: false } });
+  });
 });

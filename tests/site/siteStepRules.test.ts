@@ -91,6 +91,17 @@ describe('every loop of a decoder tripping at once', () => {
     ]);
   });
 
+  it('a round exactly 5 minutes after the last decoder trouble is no longer within them: it is held and becomes one again', () => {
+    // First round as above: one decoder trouble at 5200 ms, believed until 305 200 ms. Both loops pulse again from
+    // 300 100 ms to 303 600 ms: deadlines 305 100 ms, first seen on the TICK at exactly 305 200 ms; held 1 s.
+    const lines = wireScript(2).hello(0)
+      .pulses(1, 100_000, 3_000_000).pulses(2, 100_000, 3_000_000)
+      .pulses(1, 300_100_000, 303_600_001).pulses(2, 300_100_000, 303_600_001)
+      .ticks(0, 307_000_000).build();
+    const { effects } = run(twoLoops(), onTime(lines));
+    expect(ofKind(effects, 'decoder-mass-trip').map((e) => e.atMs - HOST)).toEqual([5200, 306_200]);
+  });
+
   it('two of three loops tripping together stand as trips once the window is over, dated when they tripped', () => {
     const index = site([['well-pit', 'main', 1], ['pump-house', 'main', 2], ['barn', 'main', 3]], [{ id: 'main', silenceMs: 2000 }]);
     const lines = wireScript(3).hello(0).pulses(1, 100_000, 3_000_000).pulses(2, 100_000, 3_000_000).pulses(3, 100_000, 8_000_000).ticks(0, 6_000_000).build();
@@ -100,6 +111,19 @@ describe('every loop of a decoder tripping at once', () => {
     expect(trips.map((e) => [e.kind === 'loop' && e.loopId, e.atMs - HOST, e.stepMs])).toEqual([
       ['well-pit', 4100, 5200],
       ['pump-house', 4100, 5200],
+    ]);
+  });
+
+  it('two of three held, and one of them cut inside the window: at its end the trips and then the open are told, in order', () => {
+    // As above, trips seen on the TICK at 4200 ms and held to 5200 ms; well pit's line is cut at 4300 ms: open at 4500 ms.
+    const index = site([['well-pit', 'main', 1], ['pump-house', 'main', 2], ['barn', 'main', 3]], [{ id: 'main', silenceMs: 2000 }]);
+    const lines = wireScript(3).hello(0).pulses(1, 100_000, 3_000_000).pulses(2, 100_000, 3_000_000).pulses(3, 100_000, 8_000_000)
+      .edge(4_300_000, 1, 'O').ticks(0, 6_000_000).build();
+    const { effects } = run(index, onTime(lines));
+    expect(told(effects).filter(([, , to]) => to !== 'healthy')).toEqual([
+      ['well-pit', 'healthy', 'tripped', 4100],
+      ['pump-house', 'healthy', 'tripped', 4100],
+      ['well-pit', 'tripped', 'open', 4500],
     ]);
   });
 
@@ -192,6 +216,20 @@ describe('decoder silence and the link', () => {
     ]);
   });
 
+  it('back online on an EDGE for one loop: every loop of that decoder leaves offline then, not only the one the EDGE was for', () => {
+    const index = twoLoops();
+    const lines = inStep(2_000_000, 2_000_000);
+    const { state } = run(index, onTime(lines));
+    const off = run(index, [{ hostMs: 4000, input: { kind: 'clock' } }], state);
+    const seq = lines.length - 1 + 15;
+    const back = run(index, [{ hostMs: 5000, input: { kind: 'line', decoderId: 'main', line: encodeLine(`EDGE ${seq} 5000000 1 H`).replace(/\n$/, '') } }], off.state);
+    expect(ofKind(back.effects, 'decoder-online').map((e) => e.atMs - HOST)).toEqual([5000]);
+    expect(back.effects.flatMap((e) => (e.kind === 'loop' && e.effect.kind === 'state' ? [[e.loopId, e.effect.from, e.effect.to, e.atMs - HOST]] : []))).toEqual([
+      ['well-pit', 'offline', 'unknown', 5000],
+      ['pump-house', 'offline', 'unknown', 5000],
+    ]);
+  });
+
   it('HELLO: every loop starts over, told when the HELLO arrived and dated in decoder time at the last time heard (README rule 8)', () => {
     const index = twoLoops();
     const { state } = run(index, onTime(inStep(2_000_000, 2_000_000)));
@@ -244,6 +282,14 @@ describe('decoder time against host time (2 s ahead)', () => {
   const checked = () => site([['well-pit', 'main', 1]], [{ id: 'main', silenceMs: 60_000 }], 2000);
   const frame = (hostMs: number, body: string): Timed => ({ hostMs, input: { kind: 'line', decoderId: 'main', line: encodeLine(body).replace(/\n$/, '') } });
   const clockFaults = (effects: SiteEffect[]) => ofKind(effects, 'decoder-clock').map((e) => [e.atMs - HOST, e.aheadMs]);
+
+  it('copies of a line received again (dropped as duplicates, "no trouble") never make a later on-time frame a clock fault', () => {
+    // Decoder time = host time throughout. 30 copies of the 10 s TICK arrive at 20 s: they carry no new time, so the
+    // smallest host-minus-decoder time may rise by at most 1 % of the 10 s elapsed, once.
+    const copies = Array.from({ length: 30 }, () => frame(20_000, 'TICK 1 10000000 N'));
+    const { effects } = run(checked(), [frame(0, 'TICK 0 0 N'), frame(10_000, 'TICK 1 10000000 N'), ...copies, frame(20_000, 'TICK 2 20000000 N')]);
+    expect(clockFaults(effects)).toEqual([]);
+  });
 
   it('exactly 2 s ahead is not a fault; more than 2 s is', () => {
     expect(clockFaults(run(checked(), [frame(0, 'TICK 0 0 N'), frame(0, 'TICK 1 2000000 N')]).effects)).toEqual([]);
