@@ -1,6 +1,6 @@
 import { isBand, type Band } from '../model/band.js';
 import { isFaultState, type LoopState } from '../model/loopState.js';
-import type { LineQuality } from './lineQuality.js';
+import { copyLineQuality, type LineQuality } from './lineQuality.js';
 import { copyLoopState, loopWindowsOf, type LoopClassifierState, type LoopSettings, type LoopWindows } from './loopClassifierState.js';
 
 /*
@@ -107,8 +107,10 @@ export function stepLoop(
   // (ownQuality), so sharing either with the caller's state is safe.
   const run: LoopRun = { s: copyLoopState(state), w: loopWindowsOf(settings), effects: [], qualityOwned: false };
   applyInput(run, input);
-  // Array.prototype.sort is stable, so effects dated alike keep the order they happened in.
-  run.effects.sort((a, b) => a.atUs - b.atUs);
+  // Array.prototype.sort is stable, so effects dated alike keep the order they happened in. Most steps
+  // give none or one, and need no sort.
+  // Stryker disable next-line ConditionalExpression,EqualityOperator: sorting none or one effect changes nothing
+  if (run.effects.length > 1) run.effects.sort(byTime);
   return { state: run.s, effects: run.effects };
 }
 
@@ -128,6 +130,8 @@ export function stepLoopAll(
   return { state: current, effects };
 }
 
+const byTime = (a: LoopEffect, b: LoopEffect): number => a.atUs - b.atUs;
+
 // ── private: one step's working set ──────────────────────────────────────────────────────────────
 
 /**
@@ -146,7 +150,7 @@ interface LoopRun {
 function ownQuality(run: LoopRun): LineQuality {
   // Stryker disable next-line ConditionalExpression: copying an owned copy again gives the same counters; it only costs an allocation
   if (!run.qualityOwned) {
-    run.s.quality = { ...run.s.quality };
+    run.s.quality = copyLineQuality(run.s.quality);
     // Stryker disable next-line BooleanLiteral: as above, a second copy holds the same counters
     run.qualityOwned = true;
   }

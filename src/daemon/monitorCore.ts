@@ -232,7 +232,8 @@ export function createMonitorCore(options: MonitorCoreOptions) {
         case 'edge':
           if (edgeBuffer.length === 0) edgeBufferSinceMs = now;
           edgeBuffer.push({ decoderId: effect.decoderId, input: effect.input, band: effect.band, decoderUs: effect.decoderUs, at: effect.atMs });
-          break;
+          // An edge is evidence, never an alarm input: most lines are one edge, so skip the mapping below.
+          continue;
         case 'loop': {
           const loopLive = live.get(effect.loopId);
           const e = effect.effect;
@@ -287,7 +288,9 @@ export function createMonitorCore(options: MonitorCoreOptions) {
           logger.warn({ decoderId: effect.decoderId, loops: effect.loops }, `all ${effect.loops} loops of decoder ${effect.decoderId} tripped within a second: taken as the link, not ${effect.loops} trips; the loops start over`);
           break;
       }
-      alarmInputs.push(...alarmInputsFor(loops, effect, intermittentLoops));
+      const inputs = alarmInputsFor(loops, effect, intermittentLoops);
+      // Stryker disable next-line ConditionalExpression: pushing no inputs changes nothing; the test spares a call per pulse
+      if (inputs.length > 0) alarmInputs.push(...inputs);
     }
     if (edgeBuffer.length >= EDGE_BATCH_ROWS) flushEdges();
     if (changes.length === 0 && alarmInputs.length === 0 && decoderWork.length === 0) return;

@@ -1,6 +1,18 @@
 import { describe, expect, it } from 'vitest';
-import { intervalFigures, takeQuality } from '../../src/classify/lineQuality.js';
+import { copyLineQuality, intervalFigures, takeQuality, type LineQuality } from '../../src/classify/lineQuality.js';
 import { classify, edge, lost, pulseAt, pulsesAt } from './loopScript.js';
+
+describe('copyLineQuality', () => {
+  it('copies every counter into a new object, so changing the copy leaves the original as it was', () => {
+    // Distinct values per field, so a field copied from the wrong counter shows.
+    const original: LineQuality = { pulses: 1, intervalCount: 2, intervalSumMs: 3.5, intervalSqSumMs: 4.25, outOfTolerance: 5, glitches: 6, longPulses: 7, lostFrames: 8 };
+    const copy = copyLineQuality(original);
+    expect(copy).toEqual(original);
+    expect(Object.keys(copy).sort()).toEqual(Object.keys(original).sort());
+    copy.pulses += 1;
+    expect(original.pulses).toBe(1);
+  });
+});
 
 describe('takeQuality', () => {
   it('hands over the counters since the last take and starts again from zero', () => {
