@@ -37,12 +37,19 @@ const FLAT_GROWTH = 0.1;
 
 export async function run(opts: BenchOptions): Promise<BenchResult> {
   // Smoke: ten simulated minutes with the unit's flags only, to prove the harness works.
-  const durationMs = opts.smoke ? 600_000 : 2 * DAY_MS;
+  // PW_BENCH_SOAK_HOURS: a shorter (or longer) full run, both variants, for measuring a change.
+  const hours = Number(process.env.PW_BENCH_SOAK_HOURS ?? '');
+  const durationMs = opts.smoke ? 600_000 : hours > 0 ? hours * 3_600_000 : 2 * DAY_MS;
   const unit = unitRuntime();
   const asUnit = { label: "the unit's flags", flags: unit.flags, env: unit.env, goalMb: GOAL_UNIT_MB };
-  const variants: Array<{ label: string; flags: string[]; env: Record<string, string>; goalMb: number }> = opts.smoke
+  const asDefaults = { label: "Node's defaults", flags: [], env: {}, goalMb: GOAL_DEFAULT_MB };
+  // PW_BENCH_SOAK_VARIANT=unit|defaults: only one of them, for measuring a change to it.
+  const only = process.env.PW_BENCH_SOAK_VARIANT;
+  const variants: Array<{ label: string; flags: string[]; env: Record<string, string>; goalMb: number }> = opts.smoke || only === 'unit'
     ? [asUnit]
-    : [asUnit, { label: "Node's defaults", flags: [], env: {}, goalMb: GOAL_DEFAULT_MB }];
+    : only === 'defaults'
+      ? [asDefaults]
+      : [asUnit, asDefaults];
   const rows: BenchRow[] = [];
   const notes: string[] = [];
   // The variants run side by side (each its own child, pty and database): CPU figures are per child.
@@ -57,7 +64,7 @@ export async function run(opts: BenchOptions): Promise<BenchResult> {
         figure: `${variant.label}: RSS at the end`,
         value: outcome.rssEndMb,
         unit: 'MB',
-        reference: opts.smoke ? 'RSS after start' : 'RSS after day 1',
+        reference: durationMs < DAY_MS ? 'RSS after start' : 'RSS after day 1',
         referenceValue: outcome.rssDay1Mb,
         ratio: outcome.rssEndMb / outcome.rssDay1Mb,
         target: `≤ ${variant.goalMb} MB, ≤ +${FLAT_GROWTH * 100} % after day 1`,

@@ -80,6 +80,7 @@ async function answer(message: SoakRequest): Promise<SoakReply> {
       if (process.env.PW_BENCH_TRACE_MEMORY) {
         const mb = (n: number) => (n / 2 ** 20).toFixed(1);
         process.stderr.write(`service soak at ${new Date(clock!.now()).toISOString()}: rss ${mb(m.rss)} heapTotal ${mb(m.heapTotal)} heapUsed ${mb(m.heapUsed)} external ${mb(m.external)} arrayBuffers ${mb(m.arrayBuffers)} MB\n`);
+        if (message.collect) process.stderr.write(`${mappingsByKind()}\n`);
       }
       const split = rssSplit();
       return { kind: 'memory', rssMb: m.rss / 2 ** 20, heapUsedMb: m.heapUsed / 2 ** 20, cpuS: (cpu.user + cpu.system) / 1e6, ...split };
@@ -140,4 +141,38 @@ function rssSplit(): { rssFileMb: number | null; rssAnonMb: number | null } {
   } catch {
     return { rssFileMb: null, rssAnonMb: null };
   }
+}
+
+/**
+ * Resident kB by kind of mapping, from /proc/self/smaps (proc(5)): each file by name, the V8 heap's
+ * and other anonymous mappings by size class, [heap] (brk), stacks. For the trace only.
+ */
+function mappingsByKind(): string {
+  let text: string;
+  try {
+    text = readFileSync('/proc/self/smaps', 'utf8');
+  } catch {
+    return 'smaps: not readable';
+  }
+  const sums = new Map<string, { rss: number; count: number }>();
+  let kind = '';
+  for (const line of text.split('\n')) {
+    const head = /^([0-9a-f]+)-([0-9a-f]+) \S+ \S+ \S+ \S+\s*(.*)$/.exec(line);
+    if (head) {
+      const size = (parseInt(head[2]!, 16) - parseInt(head[1]!, 16)) / 1024;
+      const name = head[3]!;
+      kind = name !== '' ? name.replace(/^.*node_modules\//, 'nm:') : size >= 65536 ? 'anon >= 64 MiB' : size >= 8192 ? 'anon 8-64 MiB' : size >= 1024 ? 'anon 1-8 MiB' : size > 128 ? 'anon 128 KiB-1 MiB' : 'anon <= 128 KiB';
+      const entry = sums.get(kind) ?? { rss: 0, count: 0 };
+      entry.count += 1;
+      sums.set(kind, entry);
+      continue;
+    }
+    const rss = /^Rss:\s+(\d+) kB/.exec(line);
+    if (rss && kind) sums.get(kind)!.rss += Number(rss[1]);
+  }
+  return [...sums.entries()]
+    .filter(([, v]) => v.rss >= 256)
+    .sort((a, b) => b[1].rss - a[1].rss)
+    .map(([k, v]) => `  ${(v.rss / 1024).toFixed(1).padStart(6)} MB  ${String(v.count).padStart(3)}×  ${k}`)
+    .join('\n');
 }
