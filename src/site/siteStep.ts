@@ -209,6 +209,7 @@ function applyLine(run: SiteRun, before: DecoderRuntime, line: string): DecoderR
         feedLoops(run, decoder.id, RESTART, null);
         break;
       case 'edge': {
+        // Stryker disable next-line OptionalChaining: every configured decoder has loops (the config refuses one without), so its entry is there
         const loop = run.index.loopByInput.get(decoder.id)?.[event.input];
         effects.push({ kind: 'edge', decoderId: decoder.id, input: event.input, band: event.band, decoderUs: event.decoderUs, atMs: placeOnHost(nowMs, anchorUs, event.decoderUs) });
         if (loop) feedLoop(run, loop, { kind: 'band', band: event.band, atUs: event.decoderUs }, anchorUs);
@@ -217,6 +218,7 @@ function applyLine(run: SiteRun, before: DecoderRuntime, line: string): DecoderR
       case 'tick':
         for (const loop of run.index.loopsByDecoder.get(decoder.id) ?? []) {
           const band = event.bands[loop.input - 1];
+          // Stryker disable next-line ConditionalExpression: a TICK too short for this loop gives it no band, and the classifier ignores an input that is not a band
           if (band) feedLoop(run, loop, { kind: 'sync', band, atUs: event.decoderUs }, anchorUs);
         }
         break;

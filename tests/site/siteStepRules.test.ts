@@ -370,8 +370,10 @@ describe('decoder time against host time (2 s ahead)', () => {
     const off = run(quiet, [{ hostMs: 3500, input: { kind: 'clock' } }], before.state);
     const seq = lines.length - 1 + 20;
     // The decoder's clock says 6 s; the host's, stepped back, says 1 s.
-    const { effects } = run(index, [frame(1000, `TICK ${seq} 6000000 N`)], off.state);
+    const { effects, state } = run(index, [frame(1000, `TICK ${seq} 6000000 N`)], off.state);
     expect(effects.map((e) => e.kind)).toEqual(['decoder-clock', 'decoder-online', 'loop']);
+    // Back online for good: the next frame tells no second decoder-online.
+    expect(state.decoders['main']!.offline).toBe(false);
     expect(clockFaults(effects)).toEqual([[1000, 5000]]);
     expect(told([...before.effects, ...off.effects, ...effects]).slice(1)).toEqual([
       ['well-pit', 'healthy', 'offline', 3500],
