@@ -4,8 +4,8 @@ import { unitRuntime } from '../../bench/serviceSoak.bench.js';
 describe('the service soak runs the daemon as the systemd unit does', () => {
   it('reads the Node flags and the environment from deploy/pairwatch.service itself', () => {
     const unit = unitRuntime();
-    expect(unit.flags).toEqual(['--max-semi-space-size=2']);
-    expect(unit.env).toEqual({ NODE_ENV: 'production', MALLOC_ARENA_MAX: '2' });
+    expect(unit.flags).toEqual(['--max-semi-space-size=1', '--max-old-space-size=256']);
+    expect(unit.env).toEqual({ NODE_ENV: 'production', MALLOC_ARENA_MAX: '1' });
   });
 
   it('takes only the words before the script as flags, and every assignment of every Environment= line', () => {

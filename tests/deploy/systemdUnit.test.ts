@@ -62,9 +62,9 @@ describe('deploy/pairwatch.service', () => {
     const unit = readUnit(readFileSync(UNIT, 'utf8'));
     const service = unit.get('Service')!;
     const one = (key: string) => service.get(key)?.[0];
-    expect(one('ExecStart')).toBe('/usr/bin/node --max-semi-space-size=2 /opt/pairwatch/dist/src/cli/main.js run --config /etc/pairwatch/site.yaml');
+    expect(one('ExecStart')).toBe('/usr/bin/node --max-semi-space-size=1 --max-old-space-size=256 /opt/pairwatch/dist/src/cli/main.js run --config /etc/pairwatch/site.yaml');
     // glibc's per-thread arenas capped (glibc manual, "Memory Allocation Tunables": MALLOC_ARENA_MAX).
-    expect(service.get('Environment')).toContain('MALLOC_ARENA_MAX=2');
+    expect(service.get('Environment')).toContain('MALLOC_ARENA_MAX=1');
     expect(one('User')).toBe('pairwatch');
     expect(one('SupplementaryGroups')).toBe('dialout');
     expect(one('Restart')).toBe('on-failure');
