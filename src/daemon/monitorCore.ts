@@ -288,9 +288,7 @@ export function createMonitorCore(options: MonitorCoreOptions) {
           logger.warn({ decoderId: effect.decoderId, loops: effect.loops }, `all ${effect.loops} loops of decoder ${effect.decoderId} tripped within a second: taken as the link, not ${effect.loops} trips; the loops start over`);
           break;
       }
-      const inputs = alarmInputsFor(loops, effect, intermittentLoops);
-      // Stryker disable next-line ConditionalExpression: pushing no inputs changes nothing; the test spares a call per pulse
-      if (inputs.length > 0) alarmInputs.push(...inputs);
+      alarmInputs.push(...alarmInputsFor(loops, effect, intermittentLoops));
     }
     if (edgeBuffer.length >= EDGE_BATCH_ROWS) flushEdges();
     if (changes.length === 0 && alarmInputs.length === 0 && decoderWork.length === 0) return;
